@@ -1,0 +1,527 @@
+"""Reading and validating robot descriptions (TOML) and the arm URDF.
+
+A description is checked completely here, before anything is computed: every
+problem is a `ConfigError` whose message names the file, the key, the value
+and what was expected, e.g. ``robot.toml: [base] mass must be > 0 kg, got -3``.
+Unknown keys are rejected with the list of valid ones (a typo must not silently
+fall back to a default).
+
+The only Pinocchio use here is parsing the URDF (`pinocchio.buildModelFromUrdf`)
+so that the tool frame, joint names and link inertias can be checked.
+
+Keys (SI units; every key is documented in the README's reference section)::
+
+    [robot]  name, arm_urdf, tool_frame
+    [base]   mass, com, inertia, half_track, wheel_radius,
+             rolling_resistance = 0, top_speed = inf
+    [wheel]  mass, spin_inertia, diameter_inertia
+    [drive]  rotor_inertia, gear_ratio, efficiency, coulomb = 0, viscous = 0,
+             torque_limit = inf
+    [mount]  xyz, rpy = [0, 0, 0]
+    [ground] friction = 0.6
+    [payload] mass, com = [0, 0, 0], inertia = [0, 0, 0, 0, 0, 0]
+    [arm_joint.<urdf joint>] coulomb, viscous, rotor_inertia = 0, gear_ratio = 1
+    [poses]  <name> = [arm joint values]
+    [[caster]] position = [x, y]
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .errors import ConfigError
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+__all__ = [
+    "ArmJointDrive",
+    "BaseSpec",
+    "DriveSpec",
+    "Payload",
+    "RobotDescription",
+    "WheelSpec",
+    "check_inertia",
+    "load_description",
+    "read_toml",
+]
+
+#: ground friction coefficient used when [ground] friction is absent
+#: (rubber tyre on a dry, sealed indoor floor; common practice, no source).
+DEFAULT_GROUND_FRICTION = 0.6
+
+
+# ---------------------------------------------------------------------------
+# value objects
+# ---------------------------------------------------------------------------
+@dataclass(frozen=True)
+class BaseSpec:
+    """Chassis without wheels. mass kg, com m (base frame), inertia kg·m² about
+    the COM as [Ixx, Iyy, Izz, Ixy, Ixz, Iyz], half_track m (pivot to each wheel
+    mid-plane), wheel_radius m, rolling_resistance (dimensionless C_rr),
+    top_speed m/s."""
+
+    mass: float
+    com: tuple[float, float, float]
+    inertia: tuple[float, ...]
+    half_track: float
+    wheel_radius: float
+    rolling_resistance: float = 0.0
+    top_speed: float = math.inf
+
+
+@dataclass(frozen=True)
+class WheelSpec:
+    """Each drive wheel: mass kg, spin_inertia and diameter_inertia kg·m²."""
+
+    mass: float
+    spin_inertia: float
+    diameter_inertia: float
+
+
+@dataclass(frozen=True)
+class DriveSpec:
+    """Each drive wheel's motor and gearbox. rotor_inertia kg·m² (at the
+    motor), gear_ratio (motor speed / wheel speed), efficiency (0, 1],
+    coulomb N·m and viscous N·m·s/rad friction at the wheel."""
+
+    rotor_inertia: float
+    gear_ratio: float
+    efficiency: float
+    coulomb: float = 0.0
+    viscous: float = 0.0
+    torque_limit: float = math.inf
+
+    @property
+    def reflected_inertia(self):
+        """J_rotor · G², kg·m² seen at the wheel (common practice)."""
+        return self.rotor_inertia * self.gear_ratio**2
+
+
+@dataclass(frozen=True)
+class ArmJointDrive:
+    """Per arm joint: coulomb (N·m or N), viscous (N·m·s/rad or N·s/m),
+    rotor_inertia kg·m², gear_ratio.  None means "take the URDF value"."""
+
+    coulomb: float | None = None
+    viscous: float | None = None
+    rotor_inertia: float = 0.0
+    gear_ratio: float = 1.0
+
+    @property
+    def reflected_inertia(self):
+        return self.rotor_inertia * self.gear_ratio**2
+
+
+@dataclass(frozen=True)
+class Payload:
+    """A rigid payload held at the tool: mass kg, com m in the tool frame,
+    inertia kg·m² about its COM in tool axes [Ixx, Iyy, Izz, Ixy, Ixz, Iyz]."""
+
+    mass: float
+    com: tuple[float, float, float] = (0.0, 0.0, 0.0)
+    inertia: tuple[float, ...] = (0.0,) * 6
+
+
+@dataclass(frozen=True)
+class RobotDescription:
+    """A validated robot description: the TOML contents plus the parsed URDF."""
+
+    path: Path
+    name: str
+    arm_urdf: Path
+    tool_frame: str
+    base: BaseSpec
+    wheel: WheelSpec
+    drive: DriveSpec
+    mount_xyz: tuple[float, float, float]
+    mount_rpy: tuple[float, float, float]
+    casters: tuple[tuple[float, float], ...]
+    ground_friction: float
+    payload: Payload | None
+    arm_joints: dict = field(default_factory=dict)
+    poses: dict = field(default_factory=dict)
+    arm_model: object = None  # pinocchio.Model of the arm alone (fixed base)
+
+
+# ---------------------------------------------------------------------------
+# small validators
+# ---------------------------------------------------------------------------
+def read_toml(path):
+    """Parse a TOML file; missing file or bad syntax -> ConfigError naming it."""
+    path = Path(path)
+    if not path.is_file():
+        raise ConfigError(f"{path}: file not found")
+    try:
+        with path.open("rb") as fh:
+            return tomllib.load(fh)
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"{path}: not valid TOML ({exc})") from None
+    except OSError as exc:
+        raise ConfigError(f"{path}: cannot be read ({exc})") from None
+
+
+class Section:
+    """One TOML table being read: knows its file and name for messages, and
+    rejects keys it was not asked about (`finish`)."""
+
+    def __init__(self, file, name, table):
+        self.file = Path(file).name
+        self.name = name
+        if not isinstance(table, dict):
+            self.fail("", f"must be a table, got {table!r}")
+        self.table = table
+        self.seen = set()
+
+    def where(self, key):
+        return f"{self.file}: [{self.name}] {key}".rstrip()
+
+    def fail(self, key, what):
+        raise ConfigError(f"{self.where(key)} {what}")
+
+    def has(self, key):
+        return key in self.table
+
+    def raw(self, key, default=None, *, required=True):
+        self.seen.add(key)
+        if key in self.table:
+            return self.table[key]
+        if required and default is None:
+            self.fail(key, "is missing")
+        return default
+
+    def number(self, key, default=None, *, unit="", lo=None, lo_open=False,
+               hi=None, required=True):
+        """A finite real number within the given bounds."""
+        value = self.raw(key, default, required=required)
+        if value is None:
+            return None
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            self.fail(key, f"must be a number{_unit(unit)}, got {value!r}")
+        value = float(value)
+        if math.isnan(value) or (math.isinf(value) and default != value):
+            self.fail(key, f"must be finite, got {value!r}")
+        if lo is not None and (value <= lo if lo_open else value < lo):
+            op = ">" if lo_open else ">="
+            self.fail(key, f"must be {op} {lo:g}{_unit(unit)}, got {value:g}")
+        if hi is not None and value > hi:
+            self.fail(key, f"must be <= {hi:g}{_unit(unit)}, got {value:g}")
+        return value
+
+    def vector(self, key, size, default=None, *, unit="", required=True):
+        value = self.raw(key, default, required=required)
+        if value is None:
+            return None
+        if (not isinstance(value, (list, tuple)) or len(value) != size
+                or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                           for v in value)):
+            self.fail(key, f"must be a list of {size} numbers{_unit(unit)}, got {value!r}")
+        if not all(math.isfinite(v) for v in value):
+            self.fail(key, f"must have finite entries, got {value!r}")
+        return tuple(float(v) for v in value)
+
+    def string(self, key, default=None, *, required=True):
+        value = self.raw(key, default, required=required)
+        if value is None:
+            return None
+        if not isinstance(value, str) or not value.strip():
+            self.fail(key, f"must be a non-empty string, got {value!r}")
+        return value
+
+    def finish(self):
+        unknown = sorted(set(self.table) - self.seen)
+        if unknown:
+            valid = ", ".join(sorted(self.seen))
+            self.fail(unknown[0], f"is not a known key (valid keys: {valid})")
+
+
+def _unit(unit):
+    return f" {unit}" if unit else ""
+
+
+def inertia_matrix(values):
+    """3x3 tensor from [Ixx, Iyy, Izz, Ixy, Ixz, Iyz]."""
+    ixx, iyy, izz, ixy, ixz, iyz = values
+    return np.array([[ixx, ixy, ixz], [ixy, iyy, iyz], [ixz, iyz, izz]])
+
+
+def check_inertia(values, where, *, allow_zero=False):
+    """Physical validity of a rotational inertia about the COM.
+
+    The principal moments (eigenvalues) must be positive and satisfy the
+    triangle inequality I_a <= I_b + I_c (a property of any mass distribution,
+    e.g. Meriam & Kraige, Engineering Mechanics: Dynamics, appendix B).
+    `where` prefixes the message (file and key).
+    """
+    I = inertia_matrix(values)
+    if allow_zero and not np.any(I):
+        return
+    lam = np.linalg.eigvalsh(I)
+    if lam[0] <= 0.0:
+        raise ConfigError(
+            f"{where} must be positive definite, got {list(values)} "
+            f"(principal moments {np.round(lam, 9).tolist()} kg·m²)")
+    tol = 1e-9 * lam[-1]
+    if lam[2] > lam[0] + lam[1] + tol:
+        raise ConfigError(
+            f"{where} violates the triangle inequality of principal moments "
+            f"(I1 <= I2 + I3), got {list(values)} (principal moments "
+            f"{np.round(lam, 9).tolist()} kg·m²)")
+
+
+# ---------------------------------------------------------------------------
+# the description
+# ---------------------------------------------------------------------------
+TOP_LEVEL = ("robot", "base", "wheel", "drive", "mount", "ground", "payload",
+             "arm_joint", "poses", "caster")
+
+
+def load_description(path):
+    """Read and validate a robot description TOML and its arm URDF.
+
+    Parameters
+    ----------
+    path : str or Path   the robot TOML file
+
+    Returns
+    -------
+    RobotDescription
+
+    Raises
+    ------
+    ConfigError   naming file, key, value and expectation
+    """
+    path = Path(path)
+    doc = read_toml(path)
+    name = path.name
+    unknown = sorted(set(doc) - set(TOP_LEVEL))
+    if unknown:
+        raise ConfigError(f"{name}: [{unknown[0]}] is not a known table "
+                          f"(valid tables: {', '.join(TOP_LEVEL)})")
+    for required in ("robot", "base", "wheel", "drive", "mount"):
+        if required not in doc:
+            raise ConfigError(f"{name}: table [{required}] is missing")
+
+    s = Section(path, "robot", doc["robot"])
+    robot_name = s.string("name")
+    urdf_rel = s.string("arm_urdf")
+    tool_frame = s.string("tool_frame")
+    s.finish()
+    arm_urdf = (path.parent / urdf_rel).resolve()
+
+    base = _read_base(Section(path, "base", doc["base"]))
+    wheel = _read_wheel(Section(path, "wheel", doc["wheel"]))
+    drive = _read_drive(Section(path, "drive", doc["drive"]))
+
+    s = Section(path, "mount", doc["mount"])
+    mount_xyz = s.vector("xyz", 3, unit="m")
+    mount_rpy = s.vector("rpy", 3, (0.0, 0.0, 0.0), unit="rad")
+    s.finish()
+
+    s = Section(path, "ground", doc.get("ground", {}))
+    friction = s.number("friction", DEFAULT_GROUND_FRICTION, lo=0.0, lo_open=True)
+    s.finish()
+
+    payload = None
+    if "payload" in doc:
+        payload = read_payload(Section(path, "payload", doc["payload"]))
+
+    casters = _read_casters(path, doc.get("caster", []), base)
+    arm_model = load_arm_urdf(arm_urdf, where=f"{name}: [robot] arm_urdf")
+    _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
+    arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
+    poses = _read_poses(path, doc.get("poses", {}), arm_model)
+
+    return RobotDescription(
+        path=path, name=robot_name, arm_urdf=arm_urdf, tool_frame=tool_frame,
+        base=base, wheel=wheel, drive=drive, mount_xyz=mount_xyz,
+        mount_rpy=mount_rpy, casters=casters, ground_friction=friction,
+        payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model)
+
+
+def _read_base(s):
+    base = BaseSpec(
+        mass=s.number("mass", unit="kg", lo=0.0, lo_open=True),
+        com=s.vector("com", 3, unit="m"),
+        inertia=s.vector("inertia", 6, unit="kg·m²"),
+        half_track=s.number("half_track", unit="m", lo=0.0, lo_open=True),
+        wheel_radius=s.number("wheel_radius", unit="m", lo=0.0, lo_open=True),
+        rolling_resistance=s.number("rolling_resistance", 0.0, lo=0.0, hi=1.0),
+        top_speed=s.number("top_speed", math.inf, unit="m/s", lo=0.0, lo_open=True),
+    )
+    check_inertia(base.inertia, s.where("inertia"))
+    s.finish()
+    return base
+
+
+def _read_wheel(s):
+    wheel = WheelSpec(
+        mass=s.number("mass", unit="kg", lo=0.0, lo_open=True),
+        spin_inertia=s.number("spin_inertia", unit="kg·m²", lo=0.0, lo_open=True),
+        diameter_inertia=s.number("diameter_inertia", unit="kg·m²", lo=0.0, lo_open=True),
+    )
+    # principal moments (Id, Is, Id): the triangle inequality is Is <= 2 Id
+    if wheel.spin_inertia > 2.0 * wheel.diameter_inertia * (1 + 1e-9):
+        s.fail("spin_inertia", f"must be <= 2 x diameter_inertia (triangle inequality "
+                               f"of principal moments), got {wheel.spin_inertia:g} > "
+                               f"2 x {wheel.diameter_inertia:g} kg·m²")
+    s.finish()
+    return wheel
+
+
+def _read_drive(s):
+    drive = DriveSpec(
+        rotor_inertia=s.number("rotor_inertia", unit="kg·m²", lo=0.0),
+        gear_ratio=s.number("gear_ratio", lo=0.0, lo_open=True),
+        efficiency=s.number("efficiency", lo=0.0, lo_open=True, hi=1.0),
+        coulomb=s.number("coulomb", 0.0, unit="N·m", lo=0.0),
+        viscous=s.number("viscous", 0.0, unit="N·m·s/rad", lo=0.0),
+        torque_limit=s.number("torque_limit", math.inf, unit="N·m", lo=0.0, lo_open=True),
+    )
+    s.finish()
+    return drive
+
+
+def read_payload(s):
+    """A [payload]-shaped table (also used by scenario files)."""
+    payload = Payload(
+        mass=s.number("mass", unit="kg", lo=0.0, lo_open=True),
+        com=s.vector("com", 3, (0.0, 0.0, 0.0), unit="m"),
+        inertia=s.vector("inertia", 6, (0.0,) * 6, unit="kg·m²"),
+    )
+    check_inertia(payload.inertia, s.where("inertia"), allow_zero=True)
+    s.finish()
+    return payload
+
+
+def _read_casters(path, entries, base):
+    if not isinstance(entries, list):
+        raise ConfigError(f"{path.name}: [[caster]] must be an array of tables, got {entries!r}")
+    casters = []
+    for i, entry in enumerate(entries):
+        s = Section(path, f"caster {i + 1}", entry)
+        x, y = s.vector("position", 2, unit="m")
+        s.finish()
+        if abs(x) < 1e-9 and abs(abs(y) - base.half_track) < 1e-9:
+            s.fail("position", f"coincides with a drive wheel contact, got {[x, y]}")
+        casters.append((x, y))
+    return tuple(casters)
+
+
+def load_arm_urdf(urdf_path, *, where):
+    """Parse the arm URDF with Pinocchio (fixed base) and check its inertias."""
+    import pinocchio as pin
+
+    urdf_path = Path(urdf_path)
+    if not urdf_path.is_file():
+        raise ConfigError(f"{where}: URDF file not found: {urdf_path}")
+    try:
+        arm = pin.buildModelFromUrdf(str(urdf_path))
+    except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
+        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise ConfigError(f"{urdf_path.name}: URDF does not parse ({first})") from None
+    if arm.njoints < 2:
+        raise ConfigError(f"{urdf_path.name}: the arm has no moving joint")
+    for jid in range(1, arm.njoints):
+        joint = arm.joints[jid]
+        if joint.nv != 1:
+            raise ConfigError(
+                f"{urdf_path.name}: joint '{arm.names[jid]}' has {joint.nv} degrees "
+                f"of freedom; only revolute, continuous and prismatic joints are supported")
+    _check_urdf_inertias(urdf_path)
+    return arm
+
+
+def _check_urdf_inertias(urdf_path):
+    """Mass > 0 and a physical inertia for every <inertial> of the URDF."""
+    import xml.etree.ElementTree as ET
+
+    root = ET.parse(urdf_path).getroot()
+    for link in root.iter("link"):
+        inertial = link.find("inertial")
+        if inertial is None:
+            continue
+        lname = link.get("name")
+        where = f"{urdf_path.name}: link '{lname}' <inertial>"
+        mass_el = inertial.find("mass")
+        mass = float(mass_el.get("value", "nan")) if mass_el is not None else math.nan
+        if not mass > 0.0:
+            raise ConfigError(f"{where} <mass value> must be > 0 kg, got {mass}")
+        inertia_el = inertial.find("inertia")
+        if inertia_el is None:
+            raise ConfigError(f"{where} has no <inertia>")
+        keys = ("ixx", "iyy", "izz", "ixy", "ixz", "iyz")
+        vals = [float(inertia_el.get(k, "0")) for k in keys]
+        check_inertia(vals, f"{where} <inertia>")
+
+
+def _check_tool_frame(arm, tool_frame, name, urdf):
+    if not arm.existFrame(tool_frame):
+        links = [f.name for f in arm.frames if f.type.name == "BODY"]
+        raise ConfigError(f"{name}: [robot] tool_frame '{tool_frame}' is not a link or "
+                          f"frame of {urdf.name} (links: {', '.join(links)})")
+
+
+def arm_joint_names(arm):
+    return [arm.names[j] for j in range(1, arm.njoints)]
+
+
+def arm_position_limits(arm):
+    """Lower and upper position limits per arm joint, shape (nv,) each.
+
+    Continuous joints (nq = 2 in Pinocchio) have no limit: ±inf.
+    """
+    lo = np.full(arm.nv, -np.inf)
+    hi = np.full(arm.nv, np.inf)
+    for jid in range(1, arm.njoints):
+        joint = arm.joints[jid]
+        if joint.nq == 1:
+            lo[joint.idx_v] = arm.lowerPositionLimit[joint.idx_q]
+            hi[joint.idx_v] = arm.upperPositionLimit[joint.idx_q]
+    return lo, hi
+
+
+def _read_arm_joints(path, table, arm):
+    if not isinstance(table, dict):
+        raise ConfigError(f"{path.name}: [arm_joint] must be a table of tables, got {table!r}")
+    names = arm_joint_names(arm)
+    drives = {}
+    for jname, entry in table.items():
+        if jname not in names:
+            raise ConfigError(f"{path.name}: [arm_joint.{jname}] is not a joint of the arm "
+                              f"URDF (joints: {', '.join(names)})")
+        s = Section(path, f"arm_joint.{jname}", entry)
+        drives[jname] = ArmJointDrive(
+            coulomb=s.number("coulomb", unit="N·m or N", lo=0.0, required=False),
+            viscous=s.number("viscous", unit="N·m·s/rad or N·s/m", lo=0.0, required=False),
+            rotor_inertia=s.number("rotor_inertia", 0.0, unit="kg·m²", lo=0.0),
+            gear_ratio=s.number("gear_ratio", 1.0, lo=0.0, lo_open=True),
+        )
+        s.finish()
+    return drives
+
+
+def _read_poses(path, table, arm):
+    if not isinstance(table, dict):
+        raise ConfigError(f"{path.name}: [poses] must be a table, got {table!r}")
+    n = arm.nv
+    s = Section(path, "poses", table)
+    lo, hi = arm_position_limits(arm)
+    poses = {}
+    for pose_name in table:
+        values = np.array(s.vector(pose_name, n, unit="rad or m"))
+        bad = np.flatnonzero((values < lo - 1e-9) | (values > hi + 1e-9))
+        if bad.size:
+            j = int(bad[0])
+            s.fail(pose_name, f"puts joint '{arm.names[j + 1]}' at {values[j]:g}, outside "
+                              f"its URDF limits [{lo[j]:g}, {hi[j]:g}]")
+        poses[pose_name] = values
+    s.finish()
+    return poses

@@ -1,0 +1,338 @@
+"""The whole-body model of a differential-drive mobile manipulator.
+
+Pinocchio tree (joint order = velocity order)::
+
+    universe ─ base_planar (JointModelPlanar: x, y, θ; velocity (vx, vy, ωz) in
+               │            the base frame)            body: chassis
+               ├ wheel_right (RY at (0, −b, r))        body: right wheel
+               ├ wheel_left  (RY at (0, +b, r))        body: left wheel
+               └ arm, appended at the mount placement (URDF chain order)
+
+Rolling without slip and no side slip make the base velocity a constant linear
+map of the wheel rates (the base velocity is expressed in the base frame)::
+
+    vx = r (φ̇_r + φ̇_l) / 2,   vy = 0,   ωz = r (φ̇_r − φ̇_l) / (2 b)
+
+so the Pinocchio velocity is v = S ν with ν = (φ̇_r, φ̇_l, q̇_arm) and S
+constant (a positive wheel rate drives forward; turning left speeds up the
+right wheel).  Since Ṡ = 0, v̇ = S ν̇, and projecting the constrained
+equations on the admissible motions (d'Alembert / Kane) gives the reduced
+dynamics  Sᵀ M_pin S ν̇ + Sᵀ h_pin(q, S ν) = Sᵀ τ  (the rolling constraint
+forces do no work along S).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pinocchio as pin
+
+from .description import (Payload, RobotDescription, arm_joint_names,
+                          arm_position_limits, inertia_matrix, load_description)
+from ._checks import as_vector as _finite
+from .errors import ConfigError
+
+__all__ = ["GRAVITY", "MobileManipulator", "load_robot"]
+
+#: standard gravity, m/s² (CGPM 1901; Pinocchio's default is 9.81)
+GRAVITY = 9.80665
+
+BASE_JOINT = "base_planar"
+WHEEL_JOINTS = ("wheel_right", "wheel_left")
+
+
+def load_robot(path):
+    """Load, validate and build a robot from its description TOML.
+
+    Parameters
+    ----------
+    path : str or Path   robot description (see DESIGN.md / README reference)
+
+    Returns
+    -------
+    MobileManipulator
+    """
+    return MobileManipulator(load_description(path))
+
+
+def _inertia(mass, com, values):
+    return pin.Inertia(float(mass), np.asarray(com, dtype=float), inertia_matrix(values))
+
+
+@dataclass(frozen=True)
+class Contact:
+    """A ground contact: name, position (x, y) in the base frame, m, and
+    whether it is a driven wheel."""
+
+    name: str
+    position: tuple[float, float]
+    driven: bool
+
+
+class MobileManipulator:
+    """Pinocchio model of the base, its two drive wheels and the arm.
+
+    Attributes
+    ----------
+    model : pinocchio.Model      the full model (nq = 4 + 2 + arm nq)
+    S : ndarray (model.nv, nv)   constant reduction map, v = S ν
+    nv : int                     number of reduced coordinates
+    coordinate_names : list[str] wheel_right, wheel_left, then arm joints
+    arm_joint_names : list[str]  the URDF's moving joints, in chain order
+    coulomb, viscous : ndarray (nv,)  friction per reduced coordinate
+    effort_limit, velocity_limit : ndarray (nv,)  ±limits (inf if unknown)
+    lower, upper : ndarray (nv - 2,)   arm position limits
+    contacts : tuple[Contact]    the drive-wheel contacts then the casters
+    """
+
+    def __init__(self, description: RobotDescription):
+        self.description = description
+        self.name = description.name
+        base, wheel, drive = description.base, description.wheel, description.drive
+        self.wheel_radius = base.wheel_radius
+        self.half_track = base.half_track
+        self.rolling_resistance = base.rolling_resistance
+        self.top_speed = base.top_speed
+        self.ground_friction = description.ground_friction
+        self.model = self._build(description)
+        self.data = self.model.createData()
+        self.arm_joint_names = arm_joint_names(description.arm_model)
+        self.coordinate_names = list(WHEEL_JOINTS) + self.arm_joint_names
+        self.nv = len(self.coordinate_names)
+        self.n_arm = self.nv - 2
+        self.S = self._reduction_map()
+        self.St = np.ascontiguousarray(self.S.T)
+        self._arm_q_index = [self.model.joints[self.model.getJointId(n)].idx_q
+                             for n in self.arm_joint_names]
+        self._arm_nq = [self.model.joints[self.model.getJointId(n)].nq
+                        for n in self.arm_joint_names]
+        self.lower, self.upper = arm_position_limits(description.arm_model)
+        self._set_drive_terms(description)
+        self.tool_frame = description.tool_frame
+        self.tool_frame_id = self.frame_id(description.tool_frame)
+        self._tool_joint = self.model.frames[self.tool_frame_id].parentJoint
+        self._bare_tool_inertia = self.model.inertias[self._tool_joint].copy()
+        self.payload: Payload | None = None
+        self.revision = 0  # bumped whenever the model's inertias or gravity change
+        self.slope = 0.0
+        self.contacts = (
+            Contact("wheel_right", (0.0, -self.half_track), True),
+            Contact("wheel_left", (0.0, self.half_track), True),
+        ) + tuple(Contact(f"caster_{i + 1}", xy, False)
+                  for i, xy in enumerate(description.casters))
+
+    # ------------------------------------------------------------------ build
+    @staticmethod
+    def _build(d: RobotDescription):
+        base, wheel = d.base, d.wheel
+        b, r = base.half_track, base.wheel_radius
+        m = pin.Model()
+        m.name = d.name
+        jb = m.addJoint(0, pin.JointModelPlanar(), pin.SE3.Identity(), BASE_JOINT)
+        m.appendBodyToJoint(jb, _inertia(base.mass, base.com, base.inertia), pin.SE3.Identity())
+        base_frame = m.addFrame(pin.Frame("base", jb, 0, pin.SE3.Identity(), pin.FrameType.BODY))
+        I_wheel = [wheel.diameter_inertia, wheel.spin_inertia, wheel.diameter_inertia, 0, 0, 0]
+        for name, y in zip(WHEEL_JOINTS, (-b, b)):
+            X = pin.SE3(np.eye(3), np.array([0.0, y, r]))
+            jw = m.addJoint(jb, pin.JointModelRY(), X, name)
+            m.appendBodyToJoint(jw, _inertia(wheel.mass, np.zeros(3), I_wheel), pin.SE3.Identity())
+            m.addFrame(pin.Frame(name, jw, 0, pin.SE3.Identity(), pin.FrameType.BODY))
+        X_mount = pin.SE3(pin.rpy.rpyToMatrix(np.array(d.mount_rpy)), np.array(d.mount_xyz))
+        model = pin.appendModel(m, d.arm_model, base_frame, X_mount)
+        model.gravity = pin.Motion(np.array([0.0, 0.0, -GRAVITY]), np.zeros(3))
+        return model
+
+    def _reduction_map(self):
+        r, b = self.wheel_radius, self.half_track
+        S = np.zeros((self.model.nv, self.nv))
+        S[0, 0:2] = r / 2.0                      # vx
+        S[2, 0], S[2, 1] = r / (2 * b), -r / (2 * b)  # ωz
+        S[3:, :] = np.eye(self.nv)               # wheels and arm
+        return S
+
+    def _set_drive_terms(self, d: RobotDescription):
+        """Armature (reflected rotor inertia), friction and limits per coordinate."""
+        arm = d.arm_model
+        self.coulomb = np.zeros(self.nv)
+        self.viscous = np.zeros(self.nv)
+        self.coulomb[:2] = d.drive.coulomb
+        self.viscous[:2] = d.drive.viscous
+        self.coulomb[2:] = arm.friction
+        self.viscous[2:] = arm.damping
+        armature = np.zeros(self.nv)
+        armature[:2] = d.drive.reflected_inertia
+        for k, jname in enumerate(self.arm_joint_names):
+            jd = d.arm_joints.get(jname)
+            if jd is None:
+                continue
+            armature[2 + k] = jd.reflected_inertia
+            if jd.coulomb is not None:
+                self.coulomb[2 + k] = jd.coulomb
+            if jd.viscous is not None:
+                self.viscous[2 + k] = jd.viscous
+        full = np.zeros(self.model.nv)
+        full[3:] = armature
+        self.model.armature = full
+        self.armature = armature
+        self.effort_limit = np.full(self.nv, np.inf)
+        self.velocity_limit = np.full(self.nv, np.inf)
+        self.effort_limit[:2] = d.drive.torque_limit
+        self.effort_limit[2:] = np.where(arm.effortLimit > 0, arm.effortLimit, np.inf)
+        self.velocity_limit[2:] = np.where(arm.velocityLimit > 0, arm.velocityLimit, np.inf)
+        if math.isfinite(self.top_speed):
+            self.velocity_limit[:2] = self.top_speed / self.wheel_radius
+
+    # ------------------------------------------------------------ configuration
+    def configuration(self, base_pose=(0.0, 0.0, 0.0), wheels=(0.0, 0.0), arm=None):
+        """Full Pinocchio configuration q from readable parts.
+
+        Parameters
+        ----------
+        base_pose : (x, y, θ)   m, m, rad, in the world frame
+        wheels : (φ_r, φ_l)     wheel angles, rad
+        arm : sequence (n_arm,) arm joint positions in chain order (rad or m);
+              a name of a pose of the description; None = all zeros
+
+        Returns
+        -------
+        ndarray (model.nq,)
+        """
+        x, y, theta = _finite("base_pose", base_pose, 3)
+        phi = _finite("wheels", wheels, 2)
+        if arm is None:
+            qa = np.zeros(self.n_arm)
+        elif isinstance(arm, str):
+            qa = self.pose(arm)
+        else:
+            qa = _finite("arm", arm, self.n_arm)
+        q = np.empty(self.model.nq)
+        q[:4] = (x, y, math.cos(theta), math.sin(theta))
+        q[4:6] = phi
+        for k, (iq, nq) in enumerate(zip(self._arm_q_index, self._arm_nq)):
+            if nq == 1:
+                q[iq] = qa[k]
+            else:  # continuous joint: (cos, sin)
+                q[iq:iq + 2] = (math.cos(qa[k]), math.sin(qa[k]))
+        return q
+
+    def pose(self, name):
+        """Named arm pose of the description, ndarray (n_arm,)."""
+        try:
+            return self.description.poses[name].copy()
+        except KeyError:
+            known = ", ".join(sorted(self.description.poses)) or "none"
+            raise ConfigError(f"{self.description.path.name}: [poses] has no pose "
+                              f"'{name}' (poses: {known})") from None
+
+    def base_pose(self, q):
+        """(x, y, θ) of the base in the world, m, m, rad."""
+        return float(q[0]), float(q[1]), math.atan2(q[3], q[2])
+
+    def arm_positions(self, q):
+        """Arm joint positions (n_arm,) from a full configuration."""
+        out = np.empty(self.n_arm)
+        for k, (iq, nq) in enumerate(zip(self._arm_q_index, self._arm_nq)):
+            out[k] = q[iq] if nq == 1 else math.atan2(q[iq + 1], q[iq])
+        return out
+
+    def wheel_rates(self, v, omega):
+        """Wheel rates (φ̇_r, φ̇_l), rad/s, for base speed v m/s and yaw rate ω rad/s.
+
+        Inverse of vx = r(φ̇_r + φ̇_l)/2, ωz = r(φ̇_r − φ̇_l)/(2b); vectorised.
+        """
+        r, b = self.wheel_radius, self.half_track
+        v, omega = np.asarray(v, dtype=float), np.asarray(omega, dtype=float)
+        return (v + b * omega) / r, (v - b * omega) / r
+
+    def base_twist(self, nu):
+        """(vx, ωz) of the base, m/s and rad/s, from reduced velocities (..., nv)."""
+        nu = np.asarray(nu, dtype=float)
+        r, b = self.wheel_radius, self.half_track
+        return r * (nu[..., 0] + nu[..., 1]) / 2, r * (nu[..., 0] - nu[..., 1]) / (2 * b)
+
+    def velocity(self, nu):
+        """Pinocchio velocity v = S ν (model.nv,)."""
+        return self.S.dot(nu)
+
+    def neutral(self):
+        """Configuration at the origin, wheels at 0, arm at zero."""
+        return self.configuration()
+
+    # ----------------------------------------------------------------- frames
+    def frame_id(self, name):
+        """Index of a frame of the model; ConfigError listing the known ones."""
+        if not self.model.existFrame(name):
+            names = ", ".join(f.name for f in self.model.frames if f.type == pin.FrameType.BODY)
+            raise ConfigError(f"unknown frame '{name}' (body frames: {names})")
+        return self.model.getFrameId(name)
+
+    def frame_placement(self, q, frame):
+        """World placement of a frame, pinocchio.SE3 (X_W_frame)."""
+        fid = self.frame_id(frame) if isinstance(frame, str) else int(frame)
+        pin.framesForwardKinematics(self.model, self.data, q)
+        return self.data.oMf[fid].copy()
+
+    # ------------------------------------------------------------- mass props
+    def total_mass(self):
+        """Total mass, kg (chassis, wheels, arm and any attached payload)."""
+        return float(sum(inertia.mass for inertia in self.model.inertias))
+
+    def com(self, q):
+        """Centre of mass in the world frame, m, shape (3,)."""
+        return pin.centerOfMass(self.model, self.data, q, False).copy()
+
+    # ----------------------------------------------------------------- ground
+    def set_ground_slope(self, slope=0.0):
+        """Tilt gravity so that the ground plane rises at `slope` rad along the
+        world +x axis (mutates the model; 0 restores flat ground).
+
+        The world frame stays attached to the ground (z is its normal), so a
+        ramp is gravity g⃗ = g (−sin α, 0, −cos α); a robot with heading 0
+        drives uphill, heading π downhill.
+        """
+        slope = float(slope)
+        if not (math.isfinite(slope) and abs(slope) < math.pi / 2):
+            raise ValueError(f"`slope` must be a finite angle in (-pi/2, pi/2) rad, got {slope}")
+        self.model.gravity = pin.Motion(
+            np.array([-GRAVITY * math.sin(slope), 0.0, -GRAVITY * math.cos(slope)]), np.zeros(3))
+        self.slope = slope
+        self.revision += 1
+
+    # ---------------------------------------------------------------- payload
+    def attach_payload(self, payload: Payload | None = None, *, mass=None, com=(0.0, 0.0, 0.0),
+                       inertia=(0.0,) * 6):
+        """Rigidly attach a payload at the tool frame (mutates the model).
+
+        Give a `Payload`, or `mass` (kg), `com` (m, tool frame) and `inertia`
+        (kg·m² about its COM, tool axes); with no argument, the description's
+        rated payload.  Replaces any payload already attached.
+        """
+        if payload is None and mass is None:
+            payload = self.description.payload
+            if payload is None:
+                raise ConfigError(f"{self.description.path.name}: no [payload] is described "
+                                  f"and none was given")
+        elif payload is None:
+            payload = Payload(float(mass), tuple(_finite("com", com, 3)),
+                              tuple(_finite("inertia", inertia, 6)))
+        if not payload.mass > 0:
+            raise ValueError(f"payload mass must be > 0 kg, got {payload.mass}")
+        frame = self.model.frames[self.tool_frame_id]
+        added = frame.placement.act(_inertia(payload.mass, payload.com, payload.inertia))
+        self.model.inertias[self._tool_joint] = self._bare_tool_inertia + added
+        self.payload = payload
+        self.revision += 1
+
+    def detach_payload(self):
+        """Remove the payload (mutates the model); no-op if none attached."""
+        self.model.inertias[self._tool_joint] = self._bare_tool_inertia.copy()
+        self.payload = None
+        self.revision += 1
+
+    def __repr__(self):
+        return (f"MobileManipulator({self.name!r}, nv={self.nv}, "
+                f"mass={self.total_mass():.2f} kg)")
+

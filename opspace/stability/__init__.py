@@ -1,0 +1,28 @@
+"""Stability of the wheeled base (a sub-package).
+
+- `contacts`: support polygon, ZMP from a ground wrench, normal loads per
+  contact (with lift-off), traction use, tip angle, stopping limits.
+- `wrench`: the total ground-reaction wrench of the robot from Pinocchio's
+  centroidal momentum rate and gravity, and the per-instant stability figures.
+"""
+
+from .contacts import (GRAVITY, ContactLoads, StoppingLimits, SupportPolygon, normal_loads,
+                       stopping_limits, support_polygon, tip_angle, traction_use, zmp)
+from .wrench import GroundWrench, StabilityTrack, ground_wrench, stability_track
+
+__all__ = [
+    "GRAVITY",
+    "ContactLoads",
+    "GroundWrench",
+    "StabilityTrack",
+    "StoppingLimits",
+    "SupportPolygon",
+    "ground_wrench",
+    "normal_loads",
+    "stability_track",
+    "stopping_limits",
+    "support_polygon",
+    "tip_angle",
+    "traction_use",
+    "zmp",
+]
