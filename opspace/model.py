@@ -218,6 +218,20 @@ class MobileManipulator:
                 q[iq:iq + 2] = (math.cos(qa[k]), math.sin(qa[k]))
         return q
 
+    def configurations(self, arm):
+        """Configurations (n, nq) with the base at the origin, heading 0, the
+        wheels at 0, and the arm at each row of `arm` (n, n_arm)."""
+        arm = np.asarray(arm, dtype=float)
+        if arm.ndim != 2 or arm.shape[1] != self.n_arm:
+            raise ValueError(f"`arm` must have shape (n, {self.n_arm}), got {arm.shape}")
+        qs = np.tile(self.configuration(), (len(arm), 1))
+        for k, (iq, nq) in enumerate(zip(self._arm_q_index, self._arm_nq)):
+            if nq == 1:
+                qs[:, iq] = arm[:, k]
+            else:
+                qs[:, iq], qs[:, iq + 1] = np.cos(arm[:, k]), np.sin(arm[:, k])
+        return qs
+
     def pose(self, name):
         """Named arm pose of the description, ndarray (n_arm,)."""
         try:

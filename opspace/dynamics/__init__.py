@@ -8,17 +8,27 @@
 from .joint_space import (DriveInertia, JointSpaceTerms, drive_inertia, forward_dynamics,
                           friction, inverse_dynamics, inverse_dynamics_batch, joint_space,
                           kinetic_energy, potential_energy, static_contact_loads)
+from .task_space import (AXIS_NAMES, DEFAULT_DAMPING, InertiaEllipsoid, TaskSpaceTerms,
+                         cartesian_task_space, effective_mass, inertia_ellipsoid, task_space)
 
 __all__ = [
+    "AXIS_NAMES",
+    "DEFAULT_DAMPING",
     "DriveInertia",
+    "InertiaEllipsoid",
     "JointSpaceTerms",
+    "TaskSpaceTerms",
+    "cartesian_task_space",
     "drive_inertia",
+    "effective_mass",
     "forward_dynamics",
     "friction",
+    "inertia_ellipsoid",
     "inverse_dynamics",
     "inverse_dynamics_batch",
     "joint_space",
     "kinetic_energy",
     "potential_energy",
     "static_contact_loads",
+    "task_space",
 ]

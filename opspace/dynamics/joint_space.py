@@ -343,10 +343,16 @@ def inverse_dynamics_batch(robot, qs, nus, nu_dots, *, with_friction=True, threa
         tau = pin.rneaInParallel(threads, pool.pool, np.asfortranarray(qs.T), v, a)
     Q = tau.T.dot(S)
     if with_friction:
-        Q += robot.coulomb * np.sign(nus) + robot.viscous * nus
-        if robot.rolling_resistance:
-            Q += _rolling_resistance_batch(robot, qs, nus)
+        Q = Q + _friction_batch(robot, qs, nus)
     return Q
+
+
+def _friction_batch(robot, qs, nus):
+    """Friction efforts f (n, nv) for many states (no validation)."""
+    f = robot.coulomb * np.sign(nus) + robot.viscous * nus
+    if robot.rolling_resistance:
+        f += _rolling_resistance_batch(robot, qs, nus)
+    return f
 
 
 # ------------------------------------------------------ drive inertia summary

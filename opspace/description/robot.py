@@ -28,29 +28,24 @@ Keys (SI units; every key is documented in the README's reference section)::
 from __future__ import annotations
 
 import math
-import sys
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from .errors import ConfigError
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
+from ..errors import ConfigError
+from ._toml import Section, check_inertia, inertia_matrix, read_toml
 
 __all__ = [
     "ArmJointDrive",
+    "arm_joint_names",
+    "arm_position_limits",
     "BaseSpec",
     "DriveSpec",
     "Payload",
     "RobotDescription",
     "WheelSpec",
-    "check_inertia",
     "load_description",
-    "read_toml",
 ]
 
 #: ground friction coefficient used when [ground] friction is absent
@@ -149,131 +144,6 @@ class RobotDescription:
     arm_joints: dict = field(default_factory=dict)
     poses: dict = field(default_factory=dict)
     arm_model: object = None  # pinocchio.Model of the arm alone (fixed base)
-
-
-# ---------------------------------------------------------------------------
-# small validators
-# ---------------------------------------------------------------------------
-def read_toml(path):
-    """Parse a TOML file; missing file or bad syntax -> ConfigError naming it."""
-    path = Path(path)
-    if not path.is_file():
-        raise ConfigError(f"{path}: file not found")
-    try:
-        with path.open("rb") as fh:
-            return tomllib.load(fh)
-    except tomllib.TOMLDecodeError as exc:
-        raise ConfigError(f"{path}: not valid TOML ({exc})") from None
-    except OSError as exc:
-        raise ConfigError(f"{path}: cannot be read ({exc})") from None
-
-
-class Section:
-    """One TOML table being read: knows its file and name for messages, and
-    rejects keys it was not asked about (`finish`)."""
-
-    def __init__(self, file, name, table):
-        self.file = Path(file).name
-        self.name = name
-        if not isinstance(table, dict):
-            self.fail("", f"must be a table, got {table!r}")
-        self.table = table
-        self.seen = set()
-
-    def where(self, key):
-        return f"{self.file}: [{self.name}] {key}".rstrip()
-
-    def fail(self, key, what):
-        raise ConfigError(f"{self.where(key)} {what}")
-
-    def has(self, key):
-        return key in self.table
-
-    def raw(self, key, default=None, *, required=True):
-        self.seen.add(key)
-        if key in self.table:
-            return self.table[key]
-        if required and default is None:
-            self.fail(key, "is missing")
-        return default
-
-    def number(self, key, default=None, *, unit="", lo=None, lo_open=False,
-               hi=None, required=True):
-        """A finite real number within the given bounds."""
-        value = self.raw(key, default, required=required)
-        if value is None:
-            return None
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
-            self.fail(key, f"must be a number{_unit(unit)}, got {value!r}")
-        value = float(value)
-        if math.isnan(value) or (math.isinf(value) and default != value):
-            self.fail(key, f"must be finite, got {value!r}")
-        if lo is not None and (value <= lo if lo_open else value < lo):
-            op = ">" if lo_open else ">="
-            self.fail(key, f"must be {op} {lo:g}{_unit(unit)}, got {value:g}")
-        if hi is not None and value > hi:
-            self.fail(key, f"must be <= {hi:g}{_unit(unit)}, got {value:g}")
-        return value
-
-    def vector(self, key, size, default=None, *, unit="", required=True):
-        value = self.raw(key, default, required=required)
-        if value is None:
-            return None
-        if (not isinstance(value, (list, tuple)) or len(value) != size
-                or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
-                           for v in value)):
-            self.fail(key, f"must be a list of {size} numbers{_unit(unit)}, got {value!r}")
-        if not all(math.isfinite(v) for v in value):
-            self.fail(key, f"must have finite entries, got {value!r}")
-        return tuple(float(v) for v in value)
-
-    def string(self, key, default=None, *, required=True):
-        value = self.raw(key, default, required=required)
-        if value is None:
-            return None
-        if not isinstance(value, str) or not value.strip():
-            self.fail(key, f"must be a non-empty string, got {value!r}")
-        return value
-
-    def finish(self):
-        unknown = sorted(set(self.table) - self.seen)
-        if unknown:
-            valid = ", ".join(sorted(self.seen))
-            self.fail(unknown[0], f"is not a known key (valid keys: {valid})")
-
-
-def _unit(unit):
-    return f" {unit}" if unit else ""
-
-
-def inertia_matrix(values):
-    """3x3 tensor from [Ixx, Iyy, Izz, Ixy, Ixz, Iyz]."""
-    ixx, iyy, izz, ixy, ixz, iyz = values
-    return np.array([[ixx, ixy, ixz], [ixy, iyy, iyz], [ixz, iyz, izz]])
-
-
-def check_inertia(values, where, *, allow_zero=False):
-    """Physical validity of a rotational inertia about the COM.
-
-    The principal moments (eigenvalues) must be positive and satisfy the
-    triangle inequality I_a <= I_b + I_c (a property of any mass distribution,
-    e.g. Meriam & Kraige, Engineering Mechanics: Dynamics, appendix B).
-    `where` prefixes the message (file and key).
-    """
-    I = inertia_matrix(values)
-    if allow_zero and not np.any(I):
-        return
-    lam = np.linalg.eigvalsh(I)
-    if lam[0] <= 0.0:
-        raise ConfigError(
-            f"{where} must be positive definite, got {list(values)} "
-            f"(principal moments {np.round(lam, 9).tolist()} kg·m²)")
-    tol = 1e-9 * lam[-1]
-    if lam[2] > lam[0] + lam[1] + tol:
-        raise ConfigError(
-            f"{where} violates the triangle inequality of principal moments "
-            f"(I1 <= I2 + I3), got {list(values)} (principal moments "
-            f"{np.round(lam, 9).tolist()} kg·m²)")
 
 
 # ---------------------------------------------------------------------------

@@ -1,0 +1,451 @@
+"""Operational-space (task-space computed-torque) control of the reduced model.
+
+The command (Khatib 1987, IEEE J. Robotics and Automation 3(1), eqs. 39-47):
+
+    Q = Jᵀ (Λ a* + μ + p) + Nᵀ Q₀ (+ f)
+    a* = ẍ_d + K_d (ẋ_d − ẋ) + K_p e,     e = [p_d − p;  log(R_d Rᵀ)]
+
+with Λ, μ, p, J̄ and N = I − J̄ J from `opspace.dynamics.task_space`, f the
+friction feed-forward (optional) and e the position error and the SO(3)
+logarithm of the orientation error, both in world axes (R_d Rᵀ rotates the
+frame onto its target, so log(R_d Rᵀ) ≈ ∫(ω_d − ω) dt for small errors).  With
+a perfect model the task rows obey ẍ = a*, i.e. ë + K_d ė + K_p e = 0 for the
+position rows, and for an orientation error about a fixed axis.
+
+The posture task acts in the null space, dynamically consistent: Q₀ = M ν̇₀
+with ν̇₀ = K_p0 (q₀ − q_arm) − K_d0 ν_arm for the arm (whole-body mode also
+servoes the wheel rates there, see below), so Nᵀ Q₀ = M ν̇₀ − Jᵀ Λ J ν̇₀ adds
+no task acceleration (J M⁻¹ Nᵀ = 0).  N is never formed.
+
+Modes
+-----
+``"whole_body"``  the wheels take part in the task (J is (k, nv)); the wheel
+    rows of ν̇₀ follow the base plan: ν̇₀,w = ν̇_w,plan + K_w (ν_w,plan − ν_w).
+``"arm_only"``    the task uses the arm columns only (`task_space(...,
+    base="locked")`); a wheel-velocity servo commands ν̇_w* = ν̇_w,plan +
+    K_w (ν_w,plan − ν_w), the arm carries the coupling Γ ν̇_w* and the wheels get
+    the inverse dynamics of their rows, Q_w = M_ww ν̇_w* + M_wa ν̇_a + h_w at the
+    arm acceleration ν̇_a the arm command produces.  With a perfect model the
+    wheel-rate error decays as exp(−K_w t).
+
+Gains are matrices K_p (1/s²), K_d (1/s) per task row (`Gains`), or per axis
+as a stiffness K_p = ω_n² and a damping ratio ζ, K_d = 2 ζ ω_n (the stiffness
+of the decoupled unit-mass task dynamics; the physical stiffness is Λ K_p).
+Efforts are clipped per coordinate to the effort limits (wheels: the drive
+torque limit, arm: the URDF effort) and the saturation is reported per call
+(`OperationalSpaceController.info`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import pinocchio as pin
+
+from .dynamics.joint_space import _friction, _solve_spd, _vec
+from .dynamics.task_space import (DEFAULT_DAMPING, _frame, _rows, _solve_task, _threshold,
+                                  task_space)
+
+__all__ = [
+    "BasePlan",
+    "CommandInfo",
+    "Gains",
+    "OperationalSpaceController",
+    "Target",
+]
+
+_LWA = pin.LOCAL_WORLD_ALIGNED
+_WORLD = pin.Convention.WORLD
+_MODES = ("whole_body", "arm_only")
+#: tolerance on RᵀR = I and det R = 1 for a target rotation
+ROTATION_TOL = 1e-6
+
+
+# ------------------------------------------------------------------ checks
+def _frozen(name, x, shape):
+    x = np.array(x, dtype=float)
+    if x.shape != shape:
+        raise ValueError(f"`{name}` must have shape {shape}, got {x.shape}")
+    if not np.all(np.isfinite(x)):
+        raise ValueError(f"`{name}` has non-finite entries: {x}")
+    x.setflags(write=False)
+    return x
+
+
+def _twist(name, x):
+    """(3,) linear only (angular part zero) or (6,) [linear; angular] -> (6,)."""
+    x = np.array(x, dtype=float)
+    if x.shape == (3,):
+        x = np.concatenate((x, np.zeros(3)))
+    return _frozen(name, x, (6,))
+
+
+def _rotation(R):
+    R = _frozen("rotation", R, (3, 3))
+    err = np.abs(R.T.dot(R) - np.eye(3)).max()
+    det = np.linalg.det(R)
+    if err > ROTATION_TOL or abs(det - 1.0) > ROTATION_TOL:
+        raise ValueError(
+            f"`rotation` must be a rotation matrix (RᵀR = I, det R = +1 to {ROTATION_TOL}), "
+            f"got max|RᵀR − I| = {err:.3g}, det R = {det:.6g}; orthonormalise it, e.g. "
+            "pinocchio.Quaternion(R).normalized().matrix()")
+    return R
+
+
+def _per_axis(name, x, size, unit):
+    x = np.asarray(x, dtype=float)
+    if x.ndim == 0:
+        if size is None:
+            raise ValueError(f"`{name}` is a scalar: give `size` (the number of axes)")
+        x = np.full(size, float(x))
+    if x.ndim != 1 or (size is not None and x.shape != (size,)):
+        raise ValueError(f"`{name}` must be a scalar or have shape ({size or 'n'},), "
+                         f"got {x.shape}")
+    if not np.all(np.isfinite(x)) or np.any(x < 0.0):
+        raise ValueError(f"`{name}` must be finite and >= 0 {unit} per axis, got {x}")
+    return x
+
+
+# ------------------------------------------------------------------ values
+@dataclass(frozen=True, eq=False)
+class Gains:
+    """Feedback gains of a* = ẍ_d + K_d ė + K_p e (task) or of the posture.
+
+    Kp : ndarray (n, n)   stiffness, 1/s² (per unit task inertia)
+    Kd : ndarray (n, n)   damping, 1/s
+    Both symmetric positive semi-definite (ValueError otherwise).
+    """
+
+    Kp: np.ndarray
+    Kd: np.ndarray
+
+    def __post_init__(self):
+        Kp, Kd = np.array(self.Kp, dtype=float), np.array(self.Kd, dtype=float)
+        for name, K in (("Kp", Kp), ("Kd", Kd)):
+            if K.ndim != 2 or K.shape[0] != K.shape[1] or K.shape != Kp.shape:
+                raise ValueError(f"`{name}` must be a square matrix of the shape of Kp "
+                                 f"{Kp.shape}, got {K.shape}")
+            if not np.all(np.isfinite(K)):
+                raise ValueError(f"`{name}` has non-finite entries: {K}")
+            scale = max(np.abs(K).max(), 1.0)
+            if np.abs(K - K.T).max() > 1e-12 * scale:
+                raise ValueError(f"`{name}` must be symmetric, got {K.tolist()}")
+            w = np.linalg.eigvalsh(K)
+            if w[0] < -1e-12 * scale:
+                raise ValueError(f"`{name}` must be positive semi-definite (no negative "
+                                 f"gains), got eigenvalues {w.tolist()}")
+            K.setflags(write=False)
+        object.__setattr__(self, "Kp", Kp)
+        object.__setattr__(self, "Kd", Kd)
+
+    @property
+    def size(self):
+        return self.Kp.shape[0]
+
+    @classmethod
+    def from_stiffness(cls, stiffness, damping_ratio=1.0, *, size=None):
+        """Diagonal gains from a stiffness K_p = ω_n² (1/s²) and a damping ratio ζ
+        per axis: K_d = 2 ζ √K_p.  Scalars are repeated `size` times."""
+        if size is None and np.ndim(stiffness) == 1:
+            size = len(stiffness)
+        Kp = _per_axis("stiffness", stiffness, size, "(1/s²)")
+        zeta = _per_axis("damping_ratio", damping_ratio, Kp.size, "(dimensionless)")
+        return cls(np.diag(Kp), np.diag(2.0 * zeta * np.sqrt(Kp)))
+
+    def to_dict(self):
+        return {"Kp": self.Kp.tolist(), "Kd": self.Kd.tolist()}
+
+
+@dataclass(frozen=True, eq=False)
+class Target:
+    """A task-space target of one frame, in the world frame.
+
+    position : ndarray (3,)              p_d, m
+    rotation : ndarray (3, 3) or None    R_d (world from frame); needed for angular rows
+    velocity : ndarray (6,)              [v_d; ω_d], m/s, rad/s; (3,) = linear only
+    acceleration : ndarray (6,)          [a_d; ω̇_d], m/s², rad/s²; (3,) = linear only
+    """
+
+    position: np.ndarray
+    rotation: np.ndarray | None = None
+    velocity: np.ndarray = (0.0, 0.0, 0.0)
+    acceleration: np.ndarray = (0.0, 0.0, 0.0)
+
+    def __post_init__(self):
+        object.__setattr__(self, "position", _frozen("position", self.position, (3,)))
+        if self.rotation is not None:
+            object.__setattr__(self, "rotation", _rotation(self.rotation))
+        object.__setattr__(self, "velocity", _twist("velocity", self.velocity))
+        object.__setattr__(self, "acceleration", _twist("acceleration", self.acceleration))
+
+    @classmethod
+    def hold(cls, robot, q, frame=None):
+        """Hold the frame's current world pose (zero velocity and acceleration)."""
+        fid, _ = _frame(robot, frame)
+        X = robot.frame_placement(_vec("q", q, robot.model.nq), fid)
+        return cls(X.translation, X.rotation)
+
+    @classmethod
+    def from_profile(cls, sample, index, start, end, rotation=None):
+        """A point of a straight move from `start` to `end` (m, world) driven by a
+        scalar profile sample (`opspace.trajectory.ProfileSample`, s in m along
+        the line): p = start + s û, v = ṡ û, a = s̈ û, û = (end − start)/|end − start|."""
+        start = _frozen("start", start, (3,))
+        d = _frozen("end", end, (3,)) - start
+        length = math.sqrt(d.dot(d))
+        if not length > 0.0:
+            raise ValueError(f"`end` must differ from `start`, got {start.tolist()} twice")
+        u = d / length
+        s, sd, sdd = (float(np.asarray(x)[index]) for x in (sample.s, sample.v, sample.a))
+        return cls(start + s * u, rotation, sd * u, sdd * u)
+
+    def to_dict(self):
+        return {"position": self.position.tolist(),
+                "rotation": None if self.rotation is None else self.rotation.tolist(),
+                "velocity": self.velocity.tolist(), "acceleration": self.acceleration.tolist()}
+
+
+@dataclass(frozen=True)
+class BasePlan:
+    """Planned base motion in the base frame: forward speed v (m/s), yaw rate
+    ω (rad/s) and their rates a (m/s²), α (rad/s²)."""
+
+    v: float = 0.0
+    omega: float = 0.0
+    a: float = 0.0
+    alpha: float = 0.0
+
+    def __post_init__(self):
+        for name in ("v", "omega", "a", "alpha"):
+            value = float(getattr(self, name))
+            if not math.isfinite(value):
+                raise ValueError(f"BasePlan `{name}` must be finite, got {value}")
+            object.__setattr__(self, name, value)
+
+    @classmethod
+    def from_timeline(cls, sample, index):
+        """From a sampled base motion (`TimelineSample` or `BaseMotion`) at `index`."""
+        return cls(*(float(np.asarray(getattr(sample, n))[index])
+                     for n in ("v", "omega", "a", "alpha")))
+
+
+@dataclass(frozen=True, eq=False)
+class CommandInfo:
+    """What one `command` call did.
+
+    Q : ndarray (nv,)           efforts sent (after the limits), N·m or N
+    Q_demand : ndarray (nv,)    efforts before the limits
+    saturated : ndarray (nv,)   bool per coordinate: |Q_demand| > limit
+    error : ndarray (k,)        task error e (m, rad), world axes
+    velocity_error : (k,)       ẋ_d − ẋ, m/s, rad/s
+    a_star : ndarray (k,)       commanded task acceleration, m/s², rad/s²
+    F : ndarray (k,)            task force Λ a* + μ + p (+ Γ ν̇_w*), N, N·m
+    damped : bool               the task inertia was damped (near a singularity)
+    """
+
+    Q: np.ndarray
+    Q_demand: np.ndarray
+    saturated: np.ndarray
+    error: np.ndarray
+    velocity_error: np.ndarray
+    a_star: np.ndarray
+    F: np.ndarray
+    damped: bool
+
+    @property
+    def any_saturated(self):
+        return bool(self.saturated.any())
+
+    def to_dict(self):
+        out = {name: getattr(self, name).tolist() for name in
+               ("Q", "Q_demand", "saturated", "error", "velocity_error", "a_star", "F")}
+        out["damped"] = self.damped
+        return out
+
+
+_STILL = BasePlan()
+
+
+# -------------------------------------------------------------- the controller
+class OperationalSpaceController:
+    """Task-space computed-torque controller of one frame (see the module docstring).
+
+    Parameters
+    ----------
+    robot : MobileManipulator
+    frame : str or None              None = the robot's tool frame
+    axes : "linear" | "angular" | "full" | selection (see `task_space`)
+    mode : "whole_body" | "arm_only"
+    gains : Gains (k × k) or None    default: stiffness 400 1/s², ζ = 1 on every row
+    posture : (n_arm,) or pose name or None   q₀ of the null-space posture; None:
+                                     null-space joint damping only
+    posture_gains : Gains (n_arm × n_arm) or None   default stiffness 25 1/s², ζ = 1
+    wheel_gain : float >= 0          K_w of the wheel-rate servo, 1/s
+    friction_feedforward : bool      add f(q, ν) (the model's friction) to Q
+    effort_limit : (nv,) or None     |Q_i| limits, N·m or N (inf: none); None = robot's
+    damping : float or None          singularity threshold ε (see `task_space`)
+
+    Raises ConfigError (unknown frame or pose) and ValueError (anything else).
+    """
+
+    def __init__(self, robot, frame=None, axes="full", *, mode="whole_body", gains=None,
+                 posture=None, posture_gains=None, wheel_gain=10.0, friction_feedforward=False,
+                 effort_limit=None, damping=DEFAULT_DAMPING):
+        if mode not in _MODES:
+            raise ValueError(f"`mode` must be 'whole_body' or 'arm_only', got {mode!r}")
+        self.robot, self.mode = robot, mode
+        self._fid, self.frame = _frame(robot, frame)
+        self._rows, self.axes = _rows(axes)
+        k = self.k = len(self.axes)
+        self._angular = any(a.startswith("r") for a in self.axes)
+        self.gains = self._gains("gains", gains, k, 400.0)
+        self.posture_gains = self._gains("posture_gains", posture_gains, robot.n_arm, 25.0)
+        if posture is None:
+            self.posture = None
+        else:
+            q0 = robot.pose(posture) if isinstance(posture, str) else posture
+            self.posture = _frozen("posture", q0, (robot.n_arm,))
+        self.wheel_gain = float(wheel_gain)
+        if not (math.isfinite(self.wheel_gain) and self.wheel_gain >= 0.0):
+            raise ValueError(f"`wheel_gain` must be finite and >= 0 (1/s), got {wheel_gain!r}")
+        self.friction_feedforward = bool(friction_feedforward)
+        limit = robot.effort_limit if effort_limit is None else effort_limit
+        limit = np.array(limit, dtype=float)
+        if limit.shape != (robot.nv,) or np.any(np.isnan(limit)) or np.any(limit <= 0.0):
+            raise ValueError(f"`effort_limit` must have shape ({robot.nv},) with entries > 0 "
+                             f"(inf for none), got {limit}")
+        self.effort_limit = limit
+        self.damping = _threshold(damping)
+        self._data = robot.model.createData()
+        self._zero_v = np.zeros(robot.model.nv)
+        # the arm positions are q[6:] unless an arm joint is continuous (cos, sin)
+        self._arm_slice = robot.model.nq == robot.model.nv + 1
+        self._info = None
+
+    @staticmethod
+    def _gains(name, gains, size, stiffness):
+        if gains is None:
+            return Gains.from_stiffness(stiffness, 1.0, size=size)
+        if not isinstance(gains, Gains):
+            raise ValueError(f"`{name}` must be a Gains (Gains(Kp, Kd) or "
+                             f"Gains.from_stiffness(...)), got {type(gains).__name__}")
+        if gains.size != size:
+            raise ValueError(f"`{name}` must be {size} x {size}, got {gains.size} x {gains.size}")
+        return gains
+
+    # ---------------------------------------------------------------- command
+    def command(self, q, nu, target, *, base=None):
+        """Efforts Q (nv,), N·m at the wheels and the arm joints (N for prismatic).
+
+        Parameters
+        ----------
+        q : ndarray (robot.model.nq,)   full configuration
+        nu : ndarray (robot.nv,)        reduced velocity
+        target : Target                 world-frame target of the task frame
+        base : BasePlan or None         planned base motion (None: stand still)
+
+        The call's details (saturation per coordinate, errors, damping) are in
+        `info` afterwards.
+        """
+        robot = self.robot
+        q, nu = _vec("q", q, robot.model.nq), _vec("nu", nu, robot.nv)
+        if not isinstance(target, Target):
+            raise ValueError(f"`target` must be a Target, got {type(target).__name__}")
+        if self._angular and target.rotation is None:
+            raise ValueError(f"the task has angular rows {self.axes}: the target needs a "
+                             "`rotation`")
+        plan = _STILL if base is None else base
+        if not isinstance(plan, BasePlan):
+            raise ValueError(f"`base` must be a BasePlan or None, got {type(base).__name__}")
+        return self._command(q, nu, target, plan)
+
+    def _command(self, q, nu, target, plan):
+        """The unvalidated fast path of `command` (a simulation's inner loop)."""
+        robot, model, data, rows = self.robot, self.robot.model, self._data, self._rows
+        S, St, fid = robot.S, robot.St, self._fid
+        v = S.dot(nu)
+        M = St.dot(pin.crba(model, data, q, _WORLD)).dot(S)
+        J = pin.getFrameJacobian(model, data, fid, _LWA)[rows].dot(S)  # data.J from crba
+        h = St.dot(pin.nonLinearEffects(model, data, q, v))
+        pin.forwardKinematics(model, data, q, v, self._zero_v)
+        Jdot_nu = pin.getFrameClassicalAcceleration(model, data, fid, _LWA).vector[rows]
+        X = pin.updateFramePlacement(model, data, fid)
+
+        e6 = np.empty(6)
+        e6[:3] = target.position - X.translation
+        if self._angular:
+            e6[3:] = pin.log3(target.rotation.dot(X.rotation.T))
+        else:
+            e6[3:] = 0.0
+        e = e6[rows]
+        edot = target.velocity[rows] - J.dot(nu)
+        a_star = target.acceleration[rows] + self.gains.Kd.dot(edot) + self.gains.Kp.dot(e)
+
+        # posture accelerations ν̇₀ (arm) and the wheel-rate servo
+        q_arm = q[6:] if self._arm_slice else robot.arm_positions(q)
+        Pg = self.posture_gains
+        nu_dot0 = -Pg.Kd.dot(nu[2:])
+        if self.posture is not None:
+            nu_dot0 += Pg.Kp.dot(self._posture_error(q_arm))
+        r, b = robot.wheel_radius, robot.half_track
+        w_plan = np.array(((plan.v + b * plan.omega) / r, (plan.v - b * plan.omega) / r))
+        w_acc = np.array(((plan.a + b * plan.alpha) / r, (plan.a - b * plan.alpha) / r))
+        w_servo = w_acc + self.wheel_gain * (w_plan - nu[:2])
+
+        k = self.k
+        if self.mode == "whole_body":
+            nu_dot0 = np.concatenate((w_servo, nu_dot0))
+            Y = _solve_spd(M.T, np.column_stack((J.T, h)))         # [M⁻¹Jᵀ | M⁻¹h]
+            JY = J.dot(Y)
+            B = np.column_stack((a_star + JY[:, k] - Jdot_nu, J.dot(nu_dot0)))
+            _, LB, damped = _solve_task(JY[:, :k], B, self.damping)
+            F, LJ0 = LB[:, 0], LB[:, 1]
+            Q = J.T.dot(F - LJ0) + M.dot(nu_dot0)
+        else:
+            J_w, J_a = J[:, :2], J[:, 2:]
+            M_a = M[2:, 2:]
+            Y = _solve_spd(M_a, np.column_stack((J_a.T, h[2:] + M[2:, :2].dot(w_servo))))
+            JY = J_a.dot(Y)
+            B = np.column_stack((a_star + JY[:, k] - Jdot_nu - J_w.dot(w_servo),
+                                 J_a.dot(nu_dot0)))
+            _, LB, damped = _solve_task(JY[:, :k], B, self.damping)
+            F, LJ0 = LB[:, 0], LB[:, 1]
+            Q = np.empty(robot.nv)
+            Q[2:] = J_a.T.dot(F - LJ0) + M_a.dot(nu_dot0)
+            nu_dot_a = Y[:, :k].dot(F - LJ0) + nu_dot0 - Y[:, k]
+            Q[:2] = M[:2, :2].dot(w_servo) + M[:2, 2:].dot(nu_dot_a) + h[:2]
+        if self.friction_feedforward:
+            Q += _friction(robot, q, nu)
+        lim = self.effort_limit
+        Q_sent = np.clip(Q, -lim, lim)
+        self._info = (Q_sent, Q, e, edot, a_star, F, damped)
+        return Q_sent
+
+    def _posture_error(self, q_arm):
+        err = self.posture - q_arm
+        if not self._arm_slice:  # continuous joints: the shortest way round
+            cont = ~np.isfinite(self.robot.lower)
+            err[cont] = np.angle(np.exp(1j * err[cont]))
+        return err
+
+    @property
+    def info(self):
+        """`CommandInfo` of the last `command` call (None before the first)."""
+        if self._info is None:
+            return None
+        Q, Q_demand, e, edot, a_star, F, damped = self._info
+        return CommandInfo(Q=Q, Q_demand=Q_demand, saturated=np.abs(Q_demand) > self.effort_limit,
+                           error=e, velocity_error=edot, a_star=a_star, F=F, damped=bool(damped))
+
+    # ------------------------------------------------------------- inspection
+    def task_space(self, q, nu):
+        """The task-space terms this controller uses at (q, ν) (`TaskSpaceTerms`)."""
+        base = "whole_body" if self.mode == "whole_body" else "locked"
+        return task_space(self.robot, q, nu, self.frame, self.axes, base=base,
+                          damping=self.damping or None)
+
+    def __repr__(self):
+        return (f"OperationalSpaceController(frame={self.frame!r}, axes={self.axes}, "
+                f"mode={self.mode!r})")
