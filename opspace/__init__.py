@@ -6,18 +6,22 @@ Results are model estimates: apply service factors, verify on hardware, and
 defer to the applicable safety standards and licensed engineering practice.
 """
 
-from .description import Payload, RobotDescription, load_description
+from .description import (Catalogue, DutyCycle, Payload, RobotDescription, load_catalogue,
+                          load_description, load_duty_cycle)
 from .dynamics import (DriveInertia, JointSpaceTerms, drive_inertia, forward_dynamics,
                        friction, inverse_dynamics, inverse_dynamics_batch, joint_space,
                        kinetic_energy, potential_energy)
 from .errors import ConfigError, ModelError
 from .model import GRAVITY, MobileManipulator, load_robot
-from . import stability, trajectory  # noqa: E402  (sub-modules as namespaces)
+from . import sizing, stability, trajectory  # noqa: E402  (sub-modules as namespaces)
+from .sizing import SizingResult, size  # noqa: E402
 
 __version__ = "0.1.0"
 
 __all__ = [
+    "Catalogue",
     "ConfigError",
+    "DutyCycle",
     "DriveInertia",
     "GRAVITY",
     "JointSpaceTerms",
@@ -25,6 +29,7 @@ __all__ = [
     "ModelError",
     "Payload",
     "RobotDescription",
+    "SizingResult",
     "drive_inertia",
     "forward_dynamics",
     "friction",
@@ -32,9 +37,13 @@ __all__ = [
     "inverse_dynamics_batch",
     "joint_space",
     "kinetic_energy",
+    "load_catalogue",
     "load_description",
+    "load_duty_cycle",
     "load_robot",
     "potential_energy",
+    "size",
+    "sizing",
     "stability",
     "trajectory",
 ]

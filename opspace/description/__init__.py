@@ -1,9 +1,13 @@
 """Reading and validating the user's files (a sub-package, one module per file kind).
 
 - `robot`: the robot description TOML and its arm URDF.
+- `duty`: the duty-cycle TOML of `opspace size`.
+- `catalogue`: the motor-and-gearbox catalogue TOML.
 - `_toml`: shared reading/validation helpers (messages name file, key, value).
 """
 
+from .catalogue import Catalogue, Gearbox, Motor, load_catalogue
+from .duty import DutyCycle, Segment, load_duty_cycle
 from ._toml import Section, check_inertia, inertia_matrix, read_toml
 from .robot import (ArmJointDrive, BaseSpec, DriveSpec, Payload, RobotDescription, WheelSpec,
                     arm_joint_names, arm_position_limits, load_arm_urdf, load_description,
@@ -12,6 +16,11 @@ from .robot import (ArmJointDrive, BaseSpec, DriveSpec, Payload, RobotDescriptio
 __all__ = [
     "ArmJointDrive",
     "BaseSpec",
+    "Catalogue",
+    "DutyCycle",
+    "Gearbox",
+    "Motor",
+    "Segment",
     "DriveSpec",
     "Payload",
     "RobotDescription",
@@ -22,6 +31,8 @@ __all__ = [
     "check_inertia",
     "inertia_matrix",
     "load_arm_urdf",
+    "load_catalogue",
+    "load_duty_cycle",
     "load_description",
     "read_payload",
     "read_toml",

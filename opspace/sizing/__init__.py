@@ -1,0 +1,43 @@
+"""Drive sizing (a sub-package).
+
+- `cycle`: a duty cycle evaluated: states, efforts, tyre forces, stability track.
+- `worst_case`: worst arm poses for wheel torque and tip-over, shortest stop.
+- `run`: `size()`, the whole pipeline, and its `SizingResult`.
+- `drives`: motor torque, speed, power and energy per drive wheel, RMS and
+  thermal RMS figures, motor-and-gearbox candidate checks and ratio sweeps.
+"""
+
+from .drives import (CandidateCheck, Criterion, DriveFigures, RatioSweep, WheelDuty,
+                     check_candidate, cycle_energy, cycle_rms, drive_figures, duty_factor,
+                     electrical_power, evaluate_catalogue, inertia_matching_ratio, motor_torque,
+                     sweep_ratios, thermal_rms)
+from .cycle import CycleEvaluation, evaluate_cycle
+from .run import SizingResult, size
+from .worst_case import StopFigures, WorstPose, shortest_stop, worst_poses
+
+__all__ = [
+    "CandidateCheck",
+    "CycleEvaluation",
+    "SizingResult",
+    "StopFigures",
+    "WorstPose",
+    "Criterion",
+    "DriveFigures",
+    "RatioSweep",
+    "WheelDuty",
+    "check_candidate",
+    "cycle_energy",
+    "cycle_rms",
+    "drive_figures",
+    "evaluate_cycle",
+    "duty_factor",
+    "electrical_power",
+    "evaluate_catalogue",
+    "inertia_matching_ratio",
+    "motor_torque",
+    "shortest_stop",
+    "size",
+    "sweep_ratios",
+    "thermal_rms",
+    "worst_poses",
+]
