@@ -110,6 +110,9 @@ class MobileManipulator:
         self._arm_nq = [self.model.joints[self.model.getJointId(n)].nq
                         for n in self.arm_joint_names]
         self.lower, self.upper = arm_position_limits(description.arm_model)
+        #: unit of each arm coordinate: "m" for prismatic joints, else "rad"
+        self.arm_units = ["m" if "Prismatic" in self.model.joints[self.model.getJointId(n)].shortname()
+                          else "rad" for n in self.arm_joint_names]
         self._set_drive_terms(description)
         self.tool_frame = description.tool_frame
         self.tool_frame_id = self.frame_id(description.tool_frame)
@@ -288,6 +291,18 @@ class MobileManipulator:
         fid = self.frame_id(frame) if isinstance(frame, str) else int(frame)
         pin.framesForwardKinematics(self.model, self.data, q)
         return self.data.oMf[fid].copy()
+
+    def arm_points(self, q):
+        """Points of the arm chain in the base frame for drawing, (k, 3) m:
+        the mount, each arm joint origin in chain order, then the tool frame."""
+        pin.framesForwardKinematics(self.model, self.data, q)
+        X_B_W = self.data.oMi[1].inverse()  # base_planar joint: the base frame
+        points = [np.array(self.description.mount_xyz)]
+        for name in self.arm_joint_names:
+            jid = self.model.getJointId(name)
+            points.append(X_B_W.act(self.data.oMi[jid].translation))
+        points.append(X_B_W.act(self.data.oMf[self.tool_frame_id].translation))
+        return np.array(points)
 
     # ------------------------------------------------------------- mass props
     def total_mass(self):

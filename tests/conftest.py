@@ -113,6 +113,14 @@ def make_robot(tmp_path, urdf_text=None, doc=None, name="robot.toml"):
     return opspace.load_robot(path)
 
 
+def run_cli_module(*args, cwd=None):
+    """Run `python -m opspace ARGS` in a subprocess; CompletedProcess."""
+    import subprocess
+    import sys
+    return subprocess.run([sys.executable, "-m", "opspace", *args], capture_output=True,
+                          text=True, cwd=cwd or REPO, timeout=300)
+
+
 @pytest.fixture(scope="session")
 def demo():
     return opspace.load_robot(DEMO)

@@ -94,7 +94,7 @@ def test_wrong_vector_lengths(tmp_path, key, value, pattern):
 def test_unknown_key_lists_valid_ones(tmp_path):
     doc = base_doc()
     doc["base"]["mas"] = 3.0
-    with pytest.raises(opspace.ConfigError, match=r"\[base\] mas is not a known key \(valid keys: com, half_track"):
+    with pytest.raises(opspace.ConfigError, match=r"\[base\] mas is not a known key \(valid keys: com, footprint, half_track"):
         load(tmp_path, doc)
 
 

@@ -13,7 +13,7 @@ Keys (SI units; every key is documented in the README's reference section)::
 
     [robot]  name, arm_urdf, tool_frame
     [base]   mass, com, inertia, half_track, wheel_radius,
-             rolling_resistance = 0, top_speed = inf
+             rolling_resistance = 0, top_speed = inf, footprint = none
     [wheel]  mass, spin_inertia, diameter_inertia
     [drive]  rotor_inertia, gear_ratio, efficiency, coulomb = 0, viscous = 0,
              torque_limit = inf
@@ -70,6 +70,7 @@ class BaseSpec:
     wheel_radius: float
     rolling_resistance: float = 0.0
     top_speed: float = math.inf
+    footprint: tuple | None = None   # (x_min, x_max, y_min, y_max, height) m, for drawings
 
 
 @dataclass(frozen=True)
@@ -225,7 +226,12 @@ def _read_base(s):
         wheel_radius=s.number("wheel_radius", unit="m", lo=0.0, lo_open=True),
         rolling_resistance=s.number("rolling_resistance", 0.0, lo=0.0, hi=1.0),
         top_speed=s.number("top_speed", math.inf, unit="m/s", lo=0.0, lo_open=True),
+        footprint=s.vector("footprint", 5, unit="m", required=False),
     )
+    fp = base.footprint
+    if fp is not None and not (fp[0] < fp[1] and fp[2] < fp[3] and fp[4] > 0):
+        s.fail("footprint", f"must be [x_min, x_max, y_min, y_max, height] with x_min < x_max, "
+                            f"y_min < y_max and height > 0 m, got {list(fp)}")
     check_inertia(base.inertia, s.where("inertia"))
     s.finish()
     return base

@@ -63,6 +63,10 @@ class Instant:
     t: float
 
 
+def _pose_dict(names, units, q):
+    return {n: {"value": float(v), "unit": u} for n, u, v in zip(names, units, q)}
+
+
 @dataclass(frozen=True)
 class WorstPose:
     """An arm pose found by the search: q (n_arm,) rad or m, the figure it
@@ -77,12 +81,12 @@ class WorstPose:
     grid_value: float
     evaluations: int
 
-    def to_dict(self, joint_names):
-        return {"objective": self.objective,
-                "pose": {n: float(v) for n, v in zip(joint_names, self.q)},
+    def to_dict(self, joint_names, units):
+        return {"objective": self.objective, "pose": _pose_dict(joint_names, units, self.q),
                 "value": {"value": self.value, "unit": self.unit},
                 "grid_value": {"value": self.grid_value, "unit": self.unit},
-                "instant": self.instant, "evaluations": self.evaluations}
+                "instant": {"value": self.instant, "unit": "1"},
+                "evaluations": {"value": self.evaluations, "unit": "1"}}
 
 
 def critical_instants(ev):
@@ -301,13 +305,13 @@ class StopFigures:
     limited_by: str
     pose: np.ndarray
 
-    def to_dict(self, joint_names):
+    def to_dict(self, joint_names, units):
         return {"speed": {"value": self.speed, "unit": "m/s"},
                 "deceleration": {"value": self.deceleration, "unit": "m/s²"},
                 "time": {"value": self.time, "unit": "s"},
                 "distance": {"value": self.distance, "unit": "m"},
                 "limited_by": self.limited_by,
-                "pose": {n: float(v) for n, v in zip(joint_names, self.pose)}}
+                "pose": _pose_dict(joint_names, units, self.pose)}
 
 
 def shortest_stop(robot, speed, q_arm, *, a_max=20.0, tol=1e-4):

@@ -1,0 +1,109 @@
+"""A small, dependency-free builder for self-contained HTML pages: escaped
+text, tables, figures embedded as base64 PNG, a verdict banner, and one
+stylesheet.  Used by the sizing report (and later the sweep and simulation
+pages)."""
+
+from __future__ import annotations
+
+import base64
+import html
+import math
+
+__all__ = ["Page", "fmt"]
+
+STYLE = """
+body { font-family: system-ui, -apple-system, "Segoe UI", sans-serif; margin: 2em auto;
+       max-width: 1100px; color: #222; line-height: 1.4; padding: 0 1em; }
+h1 { font-size: 1.6em; margin-bottom: 0.2em; } h2 { border-bottom: 1px solid #ccc;
+     padding-bottom: 0.2em; margin-top: 2em; } h3 { margin-bottom: 0.3em; }
+.meta { color: #555; font-size: 0.9em; }
+.verdict { padding: 0.8em 1em; border-radius: 6px; font-size: 1.1em; margin: 1em 0; }
+.verdict.pass { background: #e6f4ea; border: 1px solid #34a853; }
+.verdict.fail { background: #fce8e6; border: 1px solid #d93025; }
+.verdict.info { background: #e8f0fe; border: 1px solid #4285f4; }
+.caution { background: #fff8e1; border: 1px solid #f9a825; padding: 0.6em 1em;
+           border-radius: 6px; font-size: 0.92em; }
+table { border-collapse: collapse; margin: 0.6em 0 1.2em; font-size: 0.88em; }
+th, td { border: 1px solid #ddd; padding: 0.25em 0.55em; text-align: right; }
+th { background: #f5f5f5; } td.l, th.l { text-align: left; }
+td.ok { background: #e6f4ea; } td.bad { background: #fce8e6; font-weight: 600; }
+td.na { color: #999; }
+figure { margin: 1em 0; } figure img { max-width: 100%; border: 1px solid #eee; }
+figcaption { font-size: 0.88em; color: #444; }
+ul.small { font-size: 0.9em; }
+"""
+
+
+def fmt(value, digits=3):
+    """A number for a table: finite -> `digits` significant figures, else a word."""
+    if value is None:
+        return "–"
+    if isinstance(value, (bool, str)):
+        return str(value)
+    value = float(value)
+    if math.isnan(value):
+        return "n/a"
+    if math.isinf(value):
+        return "∞" if value > 0 else "−∞"
+    return f"{value:.{digits}g}"
+
+
+class Page:
+    """Accumulates HTML parts; `render()` returns the whole document."""
+
+    def __init__(self, title):
+        self.title = title
+        self.parts = []
+
+    def raw(self, text):
+        self.parts.append(text)
+
+    def heading(self, text, level=2, anchor=None):
+        ident = f' id="{html.escape(anchor)}"' if anchor else ""
+        self.parts.append(f"<h{level}{ident}>{html.escape(text)}</h{level}>")
+
+    def para(self, text, cls=None):
+        c = f' class="{cls}"' if cls else ""
+        self.parts.append(f"<p{c}>{html.escape(text)}</p>")
+
+    def items(self, texts, cls="small"):
+        lis = "".join(f"<li>{html.escape(t)}</li>" for t in texts)
+        self.parts.append(f'<ul class="{cls}">{lis}</ul>')
+
+    def verdict(self, status, message):
+        cls = {"pass": "pass", "fail": "fail"}.get(status, "info")
+        self.parts.append(f'<div class="verdict {cls}"><b>{html.escape(status.upper())}</b> — '
+                          f"{html.escape(message)}</div>")
+
+    def caution(self, texts):
+        body = "<br>".join(html.escape(t) for t in texts)
+        self.parts.append(f'<div class="caution"><b>Caution.</b> {body}</div>')
+
+    def table(self, header, rows, *, left=(0,), classes=None):
+        """rows: lists of cells (already formatted strings); classes: same shape
+        of CSS classes ('ok', 'bad', 'na' or '') or None."""
+        th = "".join(f'<th class="{"l" if i in left else ""}">{html.escape(h)}</th>'
+                     for i, h in enumerate(header))
+        body = []
+        for r, row in enumerate(rows):
+            cells = []
+            for i, cell in enumerate(row):
+                cls = ["l"] if i in left else []
+                if classes is not None and classes[r][i]:
+                    cls.append(classes[r][i])
+                c = f' class="{" ".join(cls)}"' if cls else ""
+                cells.append(f"<td{c}>{html.escape(str(cell))}</td>")
+            body.append("<tr>" + "".join(cells) + "</tr>")
+        self.parts.append(f"<table><thead><tr>{th}</tr></thead><tbody>{''.join(body)}"
+                          f"</tbody></table>")
+
+    def figure(self, png, caption):
+        data = base64.b64encode(png).decode("ascii")
+        self.parts.append(f'<figure><img alt="{html.escape(caption)}" '
+                          f'src="data:image/png;base64,{data}"><figcaption>'
+                          f"{html.escape(caption)}</figcaption></figure>")
+
+    def render(self):
+        return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
+                f"<title>{html.escape(self.title)}</title><style>{STYLE}</style></head>"
+                f"<body>{''.join(self.parts)}</body></html>\n")

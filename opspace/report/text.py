@@ -1,0 +1,71 @@
+"""The `check` command's text summary of a robot description."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..dynamics import drive_inertia
+
+__all__ = ["CAUTION", "check_summary", "losses"]
+
+CAUTION = ("Results are model estimates. Apply service factors, verify on hardware, "
+           "and follow the applicable safety standards for mobile robots, local codes "
+           "and licensed engineering practice.")
+
+
+def losses(robot):
+    """Which losses the model includes, in words."""
+    parts = []
+    if np.any(robot.coulomb) or np.any(robot.viscous):
+        parts.append("joint/wheel Coulomb and viscous friction")
+    if robot.rolling_resistance:
+        parts.append(f"rolling resistance C_rr = {robot.rolling_resistance:g}")
+    return ", ".join(parts) if parts else "none (pure rigid-body model)"
+
+
+def check_summary(robot):
+    """Text summary of a loaded robot for a drive engineer (the `check` command).
+
+    The locked-arm drive inertia (see `opspace.dynamics.DriveInertia`) at the
+    neutral configuration and at every named pose of the description.
+    """
+    d = robot.description
+    lines = [f"{robot.name}: description OK ({d.path.name}, arm {d.arm_urdf.name})", ""]
+    lines.append(f"reduced coordinates ({robot.nv}): " + ", ".join(robot.coordinate_names))
+    lines.append(f"Pinocchio model: nq = {robot.model.nq}, nv = {robot.model.nv}; "
+                 f"tool frame '{robot.tool_frame}'")
+    arm_mass = robot.total_mass() - d.base.mass - 2 * d.wheel.mass
+    lines.append(f"mass: total {robot.total_mass():.2f} kg = chassis {d.base.mass:.2f} + "
+                 f"wheels 2 x {d.wheel.mass:.3f} + arm {arm_mass:.2f} kg")
+    if d.payload is not None:
+        lines.append(f"rated payload: {d.payload.mass:.2f} kg at the tool (not included above)")
+    lines.append(f"wheel radius {robot.wheel_radius:.4f} m, half track {robot.half_track:.4f} m, "
+                 f"{len(d.casters)} caster(s); ground friction {robot.ground_friction:g}")
+    lines.append(f"reflected rotor inertia per wheel: J_rotor G^2 = {d.drive.rotor_inertia:.3g} x "
+                 f"{d.drive.gear_ratio:g}^2 = {d.drive.reflected_inertia:.4g} kg m^2")
+    lines.append(f"losses included: {losses(robot)}")
+    lines.append("")
+    poses = [("neutral (arm at zero)", robot.configuration())]
+    poses += [(name, robot.configuration(arm=name)) for name in d.poses]
+    header = (f"{'arm pose':<24}{'COM x,y,z [m]':>24}{'I_P [kg m^2]':>14}{'a [-]':>8}"
+              f"{'M_w [kg m^2]':>30}{'wheel mass R/L [kg]':>22}")
+    lines.append("locked-arm inertia seen by the drive wheels "
+                 "(a = I_P/(m b^2): yaw inertia about the pivot over m b^2)")
+    lines.append(header)
+    for name, q in poses:
+        di = drive_inertia(robot, q)
+        com = ", ".join(f"{v:+.3f}" for v in di.com)
+        Mw = di.M_w
+        lines.append(f"{name:<24}{com:>24}{di.yaw_inertia:>14.3f}{di.distribution:>8.3f}"
+                     f"{f'[[{Mw[0, 0]:.4f}, {Mw[0, 1]:.4f}], [{Mw[1, 0]:.4f}, {Mw[1, 1]:.4f}]]':>30}"
+                     f"{f'{di.wheel_mass[0]:.1f} / {di.wheel_mass[1]:.1f}':>22}")
+    if not d.poses:
+        lines.append("(no [poses] in the description: add e.g. a side-reach pose to see "
+                     "how the arm changes these figures)")
+    lines.append("")
+    lines.append("wheel mass = M_w[i, i] / r^2: the translational mass each wheel accelerates; "
+                 "it includes the reflected rotor inertia and the wheel's spin inertia.")
+    lines.append(CAUTION)
+    return "\n".join(lines)
+
+
