@@ -336,14 +336,15 @@ def inverse_dynamics_batch(robot, qs, nus, nu_dots, *, with_friction=True, threa
     if pool is None or pool.revision != robot.revision or pool.threads != threads:
         pool = robot._batch_pool = _Pool(robot, threads)
     S = robot.S
-    v, a = np.asfortranarray(S.dot(nus.T)), np.asfortranarray(S.dot(nu_dots.T))
-    # OpenMP threads of Pinocchio and OpenBLAS threads fight for the cores:
-    # hold BLAS to one thread during the parallel call.
+    # Pinocchio's OpenMP threads and OpenBLAS's threads fight for the cores (and
+    # OpenMP workers spin for a while after the parallel call): hold BLAS to one
+    # thread for the whole batch, the small products before and after included.
     with _blas_controller().limit(limits=1, user_api="blas"):
+        v, a = np.asfortranarray(S.dot(nus.T)), np.asfortranarray(S.dot(nu_dots.T))
         tau = pin.rneaInParallel(threads, pool.pool, np.asfortranarray(qs.T), v, a)
-    Q = tau.T.dot(S)
-    if with_friction:
-        Q = Q + _friction_batch(robot, qs, nus)
+        Q = tau.T.dot(S)
+        if with_friction:
+            Q = Q + _friction_batch(robot, qs, nus)
     return Q
 
 
