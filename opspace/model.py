@@ -111,8 +111,9 @@ class MobileManipulator:
                         for n in self.arm_joint_names]
         self.lower, self.upper = arm_position_limits(description.arm_model)
         #: unit of each arm coordinate: "m" for prismatic joints, else "rad"
-        self.arm_units = ["m" if "Prismatic" in self.model.joints[self.model.getJointId(n)].shortname()
-                          else "rad" for n in self.arm_joint_names]
+        # (JointModelPX/PY/PZ/PrismaticUnaligned; revolute ones start with "JointModelR")
+        self.arm_units = ["m" if self.model.joints[self.model.getJointId(n)].shortname()
+                          .startswith("JointModelP") else "rad" for n in self.arm_joint_names]
         self._set_drive_terms(description)
         self.tool_frame = description.tool_frame
         self.tool_frame_id = self.frame_id(description.tool_frame)
@@ -120,6 +121,7 @@ class MobileManipulator:
         self._bare_tool_inertia = self.model.inertias[self._tool_joint].copy()
         self.payload: Payload | None = None
         self.revision = 0  # bumped whenever the model's inertias or gravity change
+        self._mass_cache = None
         self.slope = 0.0
         self.contacts = (
             Contact("wheel_right", (0.0, -self.half_track), True),
@@ -307,7 +309,11 @@ class MobileManipulator:
     # ------------------------------------------------------------- mass props
     def total_mass(self):
         """Total mass, kg (chassis, wheels, arm and any attached payload)."""
-        return float(sum(inertia.mass for inertia in self.model.inertias))
+        cached = self._mass_cache
+        if cached is None or cached[0] != self.revision:
+            cached = self._mass_cache = (self.revision,
+                                         float(sum(i.mass for i in self.model.inertias)))
+        return cached[1]
 
     def com(self, q):
         """Centre of mass in the world frame, m, shape (3,)."""

@@ -189,27 +189,51 @@ def _static_loads(robot, terms, qs, coms):
     return np.maximum(weight * rhs.dot(terms.A_pinv.T), 0.0)     # (n, k)
 
 
-def _rolling_resistance(robot, q, nu):
-    """Rolling-resistance efforts f_rr (nv,), on the left-hand side (one state;
-    the same algebra as `_rolling_from_loads`, written for scalars)."""
-    f = np.zeros(robot.nv)
-    if robot.rolling_resistance == 0.0:
-        return f
-    terms = _rolling_terms(robot)
+def _static_loads_one(robot, terms, q):
+    """Static contact loads (k,) N at one configuration (no validation)."""
     com_w = pin.centerOfMass(robot.model, robot.data, q, False)
     dx, dy = com_w[0] - q[0], com_w[1] - q[1]
     x_p, y_p = q[2] * dx + q[3] * dy, -q[3] * dx + q[2] * dy
     weight = robot.total_mass() * -robot.model.gravity.linear[2]
     N = terms.A_pinv.dot((weight, weight * x_p, weight * y_p))
-    np.maximum(N, 0.0, out=N)
-    c_rr = terms.c_rr
-    f[0] = c_rr * terms.r * N[0] * (nu[0] > 0) - c_rr * terms.r * N[0] * (nu[0] < 0)
-    f[1] = c_rr * terms.r * N[1] * (nu[1] > 0) - c_rr * terms.r * N[1] * (nu[1] < 0)
-    if terms.Jx.shape[0]:
-        vcx, vcy = terms.Jx.dot(nu), terms.Jy.dot(nu)
-        speed = np.hypot(vcx, vcy)
-        k = np.divide(c_rr * N[2:], speed, out=np.zeros_like(speed), where=speed > 0)
-        f += (k * vcx).dot(terms.Jx) + (k * vcy).dot(terms.Jy)
+    return np.maximum(N, 0.0, out=N)
+
+
+class RollingLoads:
+    """Rolling resistance at one set of static loads, in scalars (the inner-loop
+    form of `_rolling_from_loads`): wheel torques k_i sign(φ̇_i) with
+    k_i = C_rr N_i r, and each caster's force C_rr N_c against its ground
+    velocity (J_x ν, J_y ν), which only the wheel rates move."""
+
+    def __init__(self, robot, q):
+        terms = _rolling_terms(robot)
+        N = _static_loads_one(robot, terms, q)
+        self.k = [float(v) for v in terms.c_rr * terms.r * N[:2]]
+        self.casters = [(float(jx[0]), float(jx[1]), float(jy[0]), float(jy[1]),
+                         float(terms.c_rr * n))
+                        for jx, jy, n in zip(terms.Jx, terms.Jy, N[2:]) if n > 0.0]
+
+    def wheel_efforts(self, nu):
+        """(f_r, f_l), N·m on the wheel coordinates (left-hand side)."""
+        w0, w1 = float(nu[0]), float(nu[1])
+        k0, k1 = self.k
+        f0 = k0 if w0 > 0 else (-k0 if w0 < 0 else 0.0)
+        f1 = k1 if w1 > 0 else (-k1 if w1 < 0 else 0.0)
+        for jx0, jx1, jy0, jy1, cN in self.casters:
+            vx, vy = jx0 * w0 + jx1 * w1, jy0 * w0 + jy1 * w1
+            speed = math.hypot(vx, vy)
+            if speed > 0.0:
+                k = cN / speed
+                f0 += k * (vx * jx0 + vy * jy0)
+                f1 += k * (vx * jx1 + vy * jy1)
+        return f0, f1
+
+
+def _rolling_resistance(robot, q, nu):
+    """Rolling-resistance efforts f_rr (nv,), on the left-hand side (one state)."""
+    f = np.zeros(robot.nv)
+    if robot.rolling_resistance != 0.0:
+        f[0], f[1] = RollingLoads(robot, q).wheel_efforts(nu)
     return f
 
 

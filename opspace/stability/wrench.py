@@ -69,7 +69,8 @@ def ground_wrench(robot, qs, nus, nu_dots):
         f_w = dhg.linear - m * g_vec
         x, y, cth, sth = qs[i, :4]
         r = c_w - (x, y, 0.0)
-        n_w = dhg.angular + np.cross(r, f_w)
+        n_w = dhg.angular + (r[1] * f_w[2] - r[2] * f_w[1], r[2] * f_w[0] - r[0] * f_w[2],
+                             r[0] * f_w[1] - r[1] * f_w[0])   # + r × f
         R_T = np.array([[cth, sth, 0.0], [-sth, cth, 0.0], [0.0, 0.0, 1.0]])
         force[i], moment[i], com[i] = R_T.dot(f_w), R_T.dot(n_w), R_T.dot(r)
     return GroundWrench(force, moment, com)
