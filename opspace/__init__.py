@@ -11,39 +11,58 @@ from .description import (Catalogue, DutyCycle, Payload, RobotDescription, load_
 from .dynamics import (DriveInertia, JointSpaceTerms, drive_inertia, forward_dynamics,
                        friction, inverse_dynamics, inverse_dynamics_batch, joint_space,
                        kinetic_energy, potential_energy)
+from .dynamics import (InertiaEllipsoid, TaskSpaceTerms, cartesian_task_space, effective_mass,
+                       inertia_ellipsoid, task_space)
+from .control import BasePlan, CommandInfo, Gains, OperationalSpaceController, Target
 from .errors import ConfigError, ModelError
 from .model import GRAVITY, MobileManipulator, load_robot
 from . import sizing, stability, trajectory  # noqa: E402  (sub-modules as namespaces)
+from .simulate import SimulationError, SimulationResult, run_scenario, simulate  # noqa: E402
 from .sizing import SizingResult, size  # noqa: E402
 
 __version__ = "0.1.0"
 
 __all__ = [
+    "BasePlan",
+    "cartesian_task_space",
     "Catalogue",
+    "CommandInfo",
     "ConfigError",
-    "DutyCycle",
-    "DriveInertia",
-    "GRAVITY",
-    "JointSpaceTerms",
-    "MobileManipulator",
-    "ModelError",
-    "Payload",
-    "RobotDescription",
-    "SizingResult",
     "drive_inertia",
+    "DriveInertia",
+    "DutyCycle",
+    "effective_mass",
     "forward_dynamics",
     "friction",
+    "Gains",
+    "GRAVITY",
+    "inertia_ellipsoid",
+    "InertiaEllipsoid",
     "inverse_dynamics",
     "inverse_dynamics_batch",
     "joint_space",
+    "JointSpaceTerms",
     "kinetic_energy",
     "load_catalogue",
     "load_description",
     "load_duty_cycle",
     "load_robot",
+    "MobileManipulator",
+    "ModelError",
+    "OperationalSpaceController",
+    "Payload",
     "potential_energy",
+    "RobotDescription",
+    "run_scenario",
+    "simulate",
+    "SimulationError",
+    "SimulationResult",
     "size",
     "sizing",
+    "SizingResult",
     "stability",
+    "Target",
+    "task_space",
+    "TaskSpaceTerms",
     "trajectory",
 ]

@@ -103,6 +103,69 @@ def _cmd_size(args):
     return 0 if result.status != "fail" else 1
 
 
+def _cmd_simulate(args):
+    from .description.scenario import load_scenario
+    from .report.simulation import simulation_text, write_simulation_outputs
+    from .simulate import ScenarioRun, SimulationError
+
+    path = Path(args.scenario) if args.scenario else demo_robot_path().with_name("pick.toml")
+    scenario = load_scenario(path)
+    run = ScenarioRun(scenario, payload_mass_error=args.payload_error)   # validates it all
+    out = Path(args.output)
+    if out.exists() and not out.is_dir():
+        raise ConfigError(f"-o {out}: exists and is not a directory")
+    progress = _Progress(not args.quiet and sys.stderr.isatty())
+    try:
+        try:
+            result = run.run(integrator=args.integrator,
+                             progress=lambda d, t: progress("simulate", d, t))
+        except SimulationError as exc:
+            progress.close()
+            print(f"opspace: simulation stopped: {exc}", file=sys.stderr)
+            if exc.result is not None:
+                out.mkdir(parents=True, exist_ok=True)
+                exc.result.to_csv(out / "partial_run.csv")
+                print(f"partial run kept in {out / 'partial_run.csv'}", file=sys.stderr)
+            return 1
+        paths = write_simulation_outputs(run, result, out, animate=not args.no_animation,
+                                         progress=lambda d, t: progress("figures", d, t))
+    finally:
+        progress.close()
+    print(simulation_text(run, result))
+    print(f"outputs in {out}: " + ", ".join(sorted(p.name for p in paths.values())))
+    return 0
+
+
+# ---------------------------------------------------------------- opspace sweep
+def _cmd_sweep(args):
+    from .sweep import load_sweep, progress_bar, run_sweep
+
+    path = Path(args.sweep) if args.sweep else demo_robot_path().with_name("sweep.toml")
+    sweep = load_sweep(path)
+    bar = progress_bar(enabled=not args.quiet and sys.stderr.isatty())
+    try:
+        result = run_sweep(sweep, args.output, workers=args.workers, cluster=args.cluster,
+                           local_cluster=args.local_cluster, resume=args.resume, progress=bar)
+    finally:
+        bar.close()
+    head = f"{len(result.feasible)} FEASIBLE" if result.feasible else "NO FEASIBLE DESIGN"
+    print(f"{head}: {result.message} ({result.executor}; {len(result.computed)} computed in "
+          f"{result.wall_time:.1f} s, {result.reused} reused, {result.retried} resubmitted)")
+    x, y = sweep.pareto[0], sweep.pareto[2]
+    by_id = {r.id: r for r in result.records}
+    for i in result.pareto[:5]:
+        r = by_id[i]
+        values = ", ".join(f"{k} = {v:g}" if isinstance(v, float) else f"{k} = {v}"
+                           for k, v in r.values.items())
+        print(f"  on the front: {values}: {x} = {r.figures.get(x):.4g}, "
+              f"{y} = {r.figures.get(y):.4g}")
+    print(f"results: {result.paths['csv']}; page: {result.paths['html']}")
+    print("Model estimates: apply service factors, verify on hardware, follow the applicable "
+          "safety standards.")
+    return 0 if result.feasible else 1
+# ------------------------------------------------------------ end opspace sweep
+
+
 def build_parser():
     parser = argparse.ArgumentParser(
         prog="opspace",
@@ -120,6 +183,36 @@ def build_parser():
                    help="skip the worst-case arm search and the shortest-stop figure")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_size)
+    p = sub.add_parser("simulate", help="simulate a scenario (e.g. a pick while driving) and "
+                                        "write figures, an animation and the time series")
+    p.add_argument("scenario", nargs="?", help="scenario TOML (default: the bundled demo pick)")
+    p.add_argument("-o", "--output", default="opspace-simulation",
+                   help="output directory (default: ./opspace-simulation)")
+    p.add_argument("--integrator", choices=("rk4", "euler"), help="override the scenario's")
+    p.add_argument("--payload-error", type=float, default=None,
+                   help="relative payload-mass error of the controller's model (e.g. 0.1)")
+    p.add_argument("--no-animation", action="store_true", help="skip the GIF")
+    p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
+    p.set_defaults(func=_cmd_simulate)
+    # ------------------------------------------------------------ opspace sweep
+    p = sub.add_parser("sweep", help="size many design points (a sweep file) on local "
+                                     "processes or a Dask cluster; CSV and HTML page")
+    p.add_argument("sweep", nargs="?", help="sweep TOML (default: the bundled demo sweep)")
+    p.add_argument("-o", "--output", default="opspace-sweep",
+                   help="output directory (default: ./opspace-sweep)")
+    where = p.add_mutually_exclusive_group()
+    where.add_argument("--cluster", metavar="ADDRESS",
+                       help="Dask scheduler address, e.g. tcp://10.0.0.5:8786 (needs "
+                            "opspace[cluster])")
+    where.add_argument("--local-cluster", metavar="N", type=int,
+                       help="start a Dask LocalCluster of N worker processes for the run")
+    p.add_argument("--workers", metavar="N", type=int,
+                   help="local worker processes (default: every core)")
+    p.add_argument("--resume", action="store_true",
+                   help="continue the sweep in the output directory: finished points are kept")
+    p.add_argument("-q", "--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(func=_cmd_sweep)
+    # -------------------------------------------------------- end opspace sweep
     return parser
 
 

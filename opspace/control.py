@@ -1,6 +1,6 @@
 """Operational-space (task-space computed-torque) control of the reduced model.
 
-The command (Khatib 1987, IEEE J. Robotics and Automation 3(1), eqs. 39-47):
+The command (Khatib 1987, IEEE J. Robotics and Automation 3(1)):
 
     Q = Jᵀ (Λ a* + μ + p) + Nᵀ Q₀ (+ f)
     a* = ẍ_d + K_d (ẋ_d − ẋ) + K_p e,     e = [p_d − p;  log(R_d Rᵀ)]
@@ -43,10 +43,12 @@ from dataclasses import dataclass
 
 import numpy as np
 import pinocchio as pin
+from scipy.linalg import lapack
 
-from .dynamics.joint_space import _friction, _solve_spd, _vec
-from .dynamics.task_space import (DEFAULT_DAMPING, _frame, _rows, _solve_task, _threshold,
-                                  task_space)
+from ._checks import as_vector as _vec
+from .dynamics.joint_space import _friction, _solve_spd
+from .dynamics.task_space import (DEFAULT_DAMPING, _frame, _rows, _solve_task, _task_rhs,
+                                  _threshold, task_space)
 
 __all__ = [
     "BasePlan",
@@ -59,6 +61,7 @@ __all__ = [
 _LWA = pin.LOCAL_WORLD_ALIGNED
 _WORLD = pin.Convention.WORLD
 _MODES = ("whole_body", "arm_only")
+_F64 = np.dtype(float)
 #: tolerance on RᵀR = I and det R = 1 for a target rotation
 ROTATION_TOL = 1e-6
 
@@ -284,15 +287,30 @@ class OperationalSpaceController:
     posture_gains : Gains (n_arm × n_arm) or None   default stiffness 25 1/s², ζ = 1
     wheel_gain : float >= 0          K_w of the wheel-rate servo, 1/s
     friction_feedforward : bool      add f(q, ν) (the model's friction) to Q
+    friction_velocity : float >= 0   v_s, rad/s or m/s: feed the Coulomb part forward as
+                                     f_C tanh(ν / v_s) instead of f_C sign(ν); 0 = exact
+                                     model.  A sampled controller needs v_s > 0: with the
+                                     sign of a velocity sampled near zero the feed-forward
+                                     pushes the wrong way half the time (a limit cycle)
     effort_limit : (nv,) or None     |Q_i| limits, N·m or N (inf: none); None = robot's
     damping : float or None          singularity threshold ε (see `task_space`)
 
     Raises ConfigError (unknown frame or pose) and ValueError (anything else).
+
+    Attributes
+    ----------
+    info : CommandInfo or None   what the last `command` did (saturation per coordinate)
+    k : int, axes : tuple[str], frame : str, mode : str, effort_limit : ndarray (nv,)
+
+    `command` validates its inputs; a simulation's inner loop that has already
+    checked them may call `_command(q, nu, target, plan)` directly.  One
+    controller owns a Pinocchio Data and work buffers: do not share it between
+    threads.
     """
 
     def __init__(self, robot, frame=None, axes="full", *, mode="whole_body", gains=None,
                  posture=None, posture_gains=None, wheel_gain=10.0, friction_feedforward=False,
-                 effort_limit=None, damping=DEFAULT_DAMPING):
+                 friction_velocity=0.0, effort_limit=None, damping=DEFAULT_DAMPING):
         if mode not in _MODES:
             raise ValueError(f"`mode` must be 'whole_body' or 'arm_only', got {mode!r}")
         self.robot, self.mode = robot, mode
@@ -311,6 +329,10 @@ class OperationalSpaceController:
         if not (math.isfinite(self.wheel_gain) and self.wheel_gain >= 0.0):
             raise ValueError(f"`wheel_gain` must be finite and >= 0 (1/s), got {wheel_gain!r}")
         self.friction_feedforward = bool(friction_feedforward)
+        self.friction_velocity = float(friction_velocity)
+        if not (math.isfinite(self.friction_velocity) and self.friction_velocity >= 0.0):
+            raise ValueError(f"`friction_velocity` must be finite and >= 0 (rad/s or m/s), "
+                             f"got {friction_velocity!r}")
         limit = robot.effort_limit if effort_limit is None else effort_limit
         limit = np.array(limit, dtype=float)
         if limit.shape != (robot.nv,) or np.any(np.isnan(limit)) or np.any(limit <= 0.0):
@@ -320,8 +342,50 @@ class OperationalSpaceController:
         self.damping = _threshold(damping)
         self._data = robot.model.createData()
         self._zero_v = np.zeros(robot.model.nv)
+        self._neg_limit = -limit
+        self._whole_body = mode == "whole_body"
+        # a* − J̇ν = G z, z = [e₆; ẋ_d − ẋ; ẍ_d − J̇ν] (6 + 2k,),
+        # G = [K_p on the selected rows of e₆ | K_d | I]
+        G = np.zeros((k, 6 + 2 * k))
+        G[:, np.arange(6)[self._rows]] = self.gains.Kp
+        G[:, 6:6 + k] = self.gains.Kd
+        G[:, 6 + k:] = np.eye(k)
+        self._G = G
+        # ν̇₀ = G₀ [ν; q₀ − q_arm]: −K_w on the wheel rates (the wheel-rate servo),
+        # −K_d0 on the arm rates, K_p0 on the posture error (+ the base plan's terms)
+        nv = robot.nv
+        G0 = np.zeros((nv, nv + robot.n_arm))
+        G0[:2, :2] = -self.wheel_gain * np.eye(2)
+        G0[2:, 2:nv] = -self.posture_gains.Kd
+        G0[2:, nv:] = self.posture_gains.Kp
+        if mode == "arm_only":
+            G0[2:] *= -1.0   # the arm-only path uses u = [ν̇_w*; −ν̇₀,a]
+        if self.posture is None:   # no posture target: null-space damping only
+            G0[:, nv:] = 0.0
+        self._G0 = G0
+        self._q0 = np.zeros(robot.n_arm) if self.posture is None else self.posture
+        self._fe = np.full(k + 1, -1.0)
+        # one product GG w = [a* − J̇ν; ν̇₀], GG = diag(G, G₀), w = [z; ν; q₀ − q_arm]
+        nz = 6 + 2 * k
+        GG = np.zeros((k + nv, nz + nv + robot.n_arm))
+        GG[:k, :nz], GG[k:, nz:] = G, G0
+        self._GG, self._w = GG, np.zeros(nz + nv + robot.n_arm)
+        self._z, self._s0 = self._w[:nz], self._w[nz:]
+        # M⁻¹'s right-hand sides [Jᵀ | h'] (Fortran order, for LAPACK); J (k, nv) is
+        # a C-order view of the same memory, written in place each call
+        n = robot.nv if self._whole_body else robot.n_arm
+        self._rhs1 = np.empty((n, k + 1), order="F")
+        self._rhs2 = _task_rhs(k, 1)
+        self._Jt = self._rhs1[:, :k]
+        self._J = self._Jt.T if self._whole_body else np.empty((k, robot.nv))
+        eps = self.damping
+        self._hot = (robot, robot.model, self._data, self._fid, self._rows, k, robot.S, robot.St,
+                     self._J, self._Jt, self._rhs1[:, k], self._rhs2[:, k], self._rhs1,
+                     self._rhs2, self._GG, self._w, self._s0, robot.nv, self._zero_v, eps * eps,
+                     range(k), self._z, self._z[:3], self._z[6:6 + k], self._z[6 + k:])
         # the arm positions are q[6:] unless an arm joint is continuous (cos, sin)
         self._arm_slice = robot.model.nq == robot.model.nv + 1
+        self._q_shape, self._nu_shape = (robot.model.nq,), (robot.nv,)
         self._info = None
 
     @staticmethod
@@ -349,95 +413,138 @@ class OperationalSpaceController:
         The call's details (saturation per coordinate, errors, damping) are in
         `info` afterwards.
         """
-        robot = self.robot
-        q, nu = _vec("q", q, robot.model.nq), _vec("nu", nu, robot.nv)
-        if not isinstance(target, Target):
+        # the common case (float arrays of the right shape) checked inline: x·x is
+        # finite iff every entry is (see `opspace._checks.as_vector`)
+        if (type(q) is not np.ndarray or q.shape != self._q_shape or q.dtype is not _F64
+                or not math.isfinite(q.dot(q))):
+            q = _vec("q", q, self.robot.model.nq)
+        if (type(nu) is not np.ndarray or nu.shape != self._nu_shape or nu.dtype is not _F64
+                or not math.isfinite(nu.dot(nu))):
+            nu = _vec("nu", nu, self.robot.nv)
+        if type(target) is not Target and not isinstance(target, Target):
             raise ValueError(f"`target` must be a Target, got {type(target).__name__}")
         if self._angular and target.rotation is None:
             raise ValueError(f"the task has angular rows {self.axes}: the target needs a "
                              "`rotation`")
-        plan = _STILL if base is None else base
-        if not isinstance(plan, BasePlan):
+        if base is None:
+            base = _STILL
+        elif not isinstance(base, BasePlan):
             raise ValueError(f"`base` must be a BasePlan or None, got {type(base).__name__}")
-        return self._command(q, nu, target, plan)
+        return self._command(q, nu, target, base)
 
     def _command(self, q, nu, target, plan):
-        """The unvalidated fast path of `command` (a simulation's inner loop)."""
-        robot, model, data, rows = self.robot, self.robot.model, self._data, self._rows
-        S, St, fid = robot.S, robot.St, self._fid
+        """The unvalidated fast path of `command` (a simulation's inner loop).
+
+        With h' = h − M ν̇₀ (whole body; arm only: h_a + M_aw ν̇_w* − M_a ν̇₀), two
+        dposv calls give Y = M⁻¹ [Jᵀ | h'] and Λ [I | b'] (`_solve_task`), b' =
+        a* − J̇ν + J M⁻¹ h' (− J_base ν̇_w*) = b − J ν̇₀.  Then F = Λ b = Λ a* + μ + p
+        (+ Γ ν̇_w*) and, as Nᵀ M ν̇₀ = M ν̇₀ − Jᵀ Λ J ν̇₀,  Q = Jᵀ Λ b' + M ν̇₀.
+        The vector z = [e₆; ẋ_d − ẋ; ẍ_d − J̇ν] is multiplied once by
+        G = [K_p | K_d | I], giving a* − J̇ν.  J, h' and z live in buffers that the
+        next call overwrites (`info` reads them back for the last call only).
+        """
+        (robot, model, data, fid, rows, k, S, St, J, Jt, h_col, b, rhs1, rhs2, GG, w, s0,
+         nv, zero_v, eps2, diag, z, z_e, z_v, z_a) = self._hot
+        self._info = None                              # the buffers are about to change
         v = S.dot(nu)
         M = St.dot(pin.crba(model, data, q, _WORLD)).dot(S)
-        J = pin.getFrameJacobian(model, data, fid, _LWA)[rows].dot(S)  # data.J from crba
+        np.dot(pin.getFrameJacobian(model, data, fid, _LWA)[rows], S, out=J)  # data.J: crba
         h = St.dot(pin.nonLinearEffects(model, data, q, v))
-        pin.forwardKinematics(model, data, q, v, self._zero_v)
+        pin.forwardKinematics(model, data, q, v, zero_v)
         Jdot_nu = pin.getFrameClassicalAcceleration(model, data, fid, _LWA).vector[rows]
-        X = pin.updateFramePlacement(model, data, fid)
+        H = pin.updateFramePlacement(model, data, fid).homogeneous   # one copy: [R p; 0 1]
 
-        e6 = np.empty(6)
-        e6[:3] = target.position - X.translation
+        np.subtract(target.position, H[:3, 3], out=z_e)
         if self._angular:
-            e6[3:] = pin.log3(target.rotation.dot(X.rotation.T))
+            z[3:6] = pin.log3(target.rotation.dot(H[:3, :3].T))
+        np.subtract(target.velocity[rows], J.dot(nu), out=z_v)
+        np.subtract(target.acceleration[rows], Jdot_nu, out=z_a)
+
+        # posture accelerations ν̇₀ = G₀ [ν; q₀ − q_arm] (+ the base plan's wheel terms)
+        s0[:nv] = nu
+        if self.posture is None:
+            pass                                       # G₀'s posture columns are zero
+        elif self._arm_slice:
+            np.subtract(self._q0, q[6:], out=s0[nv:])
         else:
-            e6[3:] = 0.0
-        e = e6[rows]
-        edot = target.velocity[rows] - J.dot(nu)
-        a_star = target.acceleration[rows] + self.gains.Kd.dot(edot) + self.gains.Kp.dot(e)
-
-        # posture accelerations ν̇₀ (arm) and the wheel-rate servo
-        q_arm = q[6:] if self._arm_slice else robot.arm_positions(q)
-        Pg = self.posture_gains
-        nu_dot0 = -Pg.Kd.dot(nu[2:])
-        if self.posture is not None:
-            nu_dot0 += Pg.Kp.dot(self._posture_error(q_arm))
-        r, b = robot.wheel_radius, robot.half_track
-        w_plan = np.array(((plan.v + b * plan.omega) / r, (plan.v - b * plan.omega) / r))
-        w_acc = np.array(((plan.a + b * plan.alpha) / r, (plan.a - b * plan.alpha) / r))
-        w_servo = w_acc + self.wheel_gain * (w_plan - nu[:2])
-
-        k = self.k
-        if self.mode == "whole_body":
-            nu_dot0 = np.concatenate((w_servo, nu_dot0))
-            Y = _solve_spd(M.T, np.column_stack((J.T, h)))         # [M⁻¹Jᵀ | M⁻¹h]
+            s0[nv:] = self._posture_error(q)
+        g = GG.dot(w)                                 # [a* − J̇ν; ν̇₀] in one product
+        ga, nd0 = g[:k], g[k:]
+        if plan is not _STILL:
+            nd0[:2] += self._plan_rates(plan)
+        if self._whole_body:
+            M_nd0 = M.dot(nd0)
+            np.subtract(h, M_nd0, out=h_col)
+            _, Y, info = lapack.dposv(M, rhs1)         # [M⁻¹Jᵀ | M⁻¹h']
+            if info:
+                _solve_spd(M, rhs1)                   # raises the ModelError
             JY = J.dot(Y)
-            B = np.column_stack((a_star + JY[:, k] - Jdot_nu, J.dot(nu_dot0)))
-            _, LB, damped = _solve_task(JY[:, :k], B, self.damping)
-            F, LJ0 = LB[:, 0], LB[:, 1]
-            Q = J.T.dot(F - LJ0) + M.dot(nu_dot0)
+            np.add(JY[:, k], ga, out=b)               # b' = J M⁻¹h' + a* − J̇ν
         else:
-            J_w, J_a = J[:, :2], J[:, 2:]
+            # here nd0 = u = [ν̇_w*; −ν̇₀,a] (G₀'s arm rows negated): h' = h_a + M[2:] u
+            Jt[:] = J[:, 2:].T
+            np.dot(M[2:], nd0, out=h_col)
+            h_col += h[2:]
             M_a = M[2:, 2:]
-            Y = _solve_spd(M_a, np.column_stack((J_a.T, h[2:] + M[2:, :2].dot(w_servo))))
-            JY = J_a.dot(Y)
-            B = np.column_stack((a_star + JY[:, k] - Jdot_nu - J_w.dot(w_servo),
-                                 J_a.dot(nu_dot0)))
-            _, LB, damped = _solve_task(JY[:, :k], B, self.damping)
-            F, LJ0 = LB[:, 0], LB[:, 1]
-            Q = np.empty(robot.nv)
-            Q[2:] = J_a.T.dot(F - LJ0) + M_a.dot(nu_dot0)
-            nu_dot_a = Y[:, :k].dot(F - LJ0) + nu_dot0 - Y[:, k]
-            Q[:2] = M[:2, :2].dot(w_servo) + M[:2, 2:].dot(nu_dot_a) + h[:2]
+            _, Y, info = lapack.dposv(M_a, rhs1)       # [M_a⁻¹J_aᵀ | M_a⁻¹h']
+            if info:
+                _solve_spd(M_a, rhs1)
+            JY = J[:, 2:].dot(Y)
+            np.add(JY[:, k], ga, out=b)
+            b -= J[:, :2].dot(nd0[:2])                # − J_base ν̇_w*
+        Linv = JY[:, :k]
+        _, LB, info = lapack.dposv(Linv, rhs2)         # Λ [I | b']
+        damped = False
+        if info or (eps2 and sum(map(LB.item, diag, diag)) * eps2 > 1.0):
+            LB, damped = _solve_task(Linv, rhs2, self.damping)   # the exact / damped path
+        if self._whole_body:
+            Q = LB[:, k].dot(J)                        # Jᵀ F_net (J is C-order)
+            Q += M_nd0
+        else:
+            # ν̇ = [ν̇_w*; M_a⁻¹(Q_a − h_a − M_aw ν̇_w*)] = [ν̇_w*; Y [F_net; −1]], then the
+            # wheels' and the arm's efforts at once: Q = M ν̇ + h (Q_a = J_aᵀ F_net + M_a ν̇₀)
+            fe = self._fe
+            fe[:k] = LB[:, k]
+            nu_dot = np.empty(nv)
+            nu_dot[:2] = nd0[:2]
+            np.dot(Y, fe, out=nu_dot[2:])
+            Q = M.dot(nu_dot)
+            Q += h
         if self.friction_feedforward:
             Q += _friction(robot, q, nu)
-        lim = self.effort_limit
-        Q_sent = np.clip(Q, -lim, lim)
-        self._info = (Q_sent, Q, e, edot, a_star, F, damped)
+            if self.friction_velocity:   # f_C (tanh(ν/v_s) − sign ν): the smoothed Coulomb term
+                Q += robot.coulomb * (np.tanh(nu / self.friction_velocity) - np.sign(nu))
+        Q_sent = np.minimum(Q, self.effort_limit)
+        np.maximum(Q_sent, self._neg_limit, out=Q_sent)
+        self._info = (Q_sent, Q, LB, Jdot_nu, ga, nd0, damped)
         return Q_sent
 
-    def _posture_error(self, q_arm):
-        err = self.posture - q_arm
-        if not self._arm_slice:  # continuous joints: the shortest way round
-            cont = ~np.isfinite(self.robot.lower)
-            err[cont] = np.angle(np.exp(1j * err[cont]))
+    def _posture_error(self, q):
+        """q₀ − q_arm; continuous joints the shortest way round."""
+        err = self._q0 - self.robot.arm_positions(q)
+        cont = ~np.isfinite(self.robot.lower)
+        err[cont] = np.angle(np.exp(1j * err[cont]))
         return err
+
+    def _plan_rates(self, plan):
+        """ν̇_w,plan + K_w ν_w,plan for a base plan (the −K_w ν_w part is in K_d0)."""
+        r, b, kw = self.robot.wheel_radius, self.robot.half_track, self.wheel_gain
+        v, w = plan.a + kw * plan.v, plan.alpha + kw * plan.omega
+        return np.array(((v + b * w) / r, (v - b * w) / r))
 
     @property
     def info(self):
         """`CommandInfo` of the last `command` call (None before the first)."""
         if self._info is None:
             return None
-        Q, Q_demand, e, edot, a_star, F, damped = self._info
+        Q, Q_demand, LB, Jdot_nu, ga, nd0, damped = self._info
+        k, z, J = self.k, self._z, self._J     # the buffers hold the last call's values
+        a_star = ga + Jdot_nu
+        J_nd0 = J.dot(nd0) if self._whole_body else -J[:, 2:].dot(nd0[2:])
+        F = LB[:, k] + LB[:, :k].dot(J_nd0)       # Λ b' + Λ J ν̇₀
         return CommandInfo(Q=Q, Q_demand=Q_demand, saturated=np.abs(Q_demand) > self.effort_limit,
-                           error=e, velocity_error=edot, a_star=a_star, F=F, damped=bool(damped))
+                           error=z[:6][self._rows].copy(), velocity_error=z[6:6 + k].copy(),
+                           a_star=a_star, F=F, damped=bool(damped))
 
     # ------------------------------------------------------------- inspection
     def task_space(self, q, nu):

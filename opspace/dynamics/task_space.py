@@ -14,9 +14,9 @@ task coordinates obey, with M ν̇ + c + g = Q and Q = Jᵀ F,
 
 (Khatib 1987, "A unified approach for motion and force control of robot
 manipulators: the operational space formulation", IEEE J. Robotics and
-Automation 3(1), eqs. 22-26 and 39-43.)  J̇ν is the classical acceleration of
-the frame origin (and the angular acceleration) at zero ν̇.  When J is square
-and regular, Λ = J⁻ᵀ M J⁻¹, μ = J⁻ᵀ c − Λ J̇ν, p = J⁻ᵀ g (`cartesian_task_space`).
+Automation 3(1).)  J̇ν is the classical acceleration of the frame origin (and
+the angular acceleration) at zero ν̇.  When J is square and regular,
+Λ = J⁻ᵀ M J⁻¹, μ = J⁻ᵀ c − Λ J̇ν, p = J⁻ᵀ g (`cartesian_task_space`).
 
 Two choices of the task coordinates' mobility (`base`):
 
@@ -63,7 +63,8 @@ import pinocchio as pin
 from scipy.linalg import lapack
 
 from ..errors import ModelError
-from .joint_space import _solve_spd, _vec
+from .._checks import as_vector as _vec
+from .joint_space import _solve_spd
 
 __all__ = [
     "AXIS_NAMES",
@@ -82,6 +83,7 @@ AXIS_NAMES = ("x", "y", "z", "rx", "ry", "rz")
 DEFAULT_DAMPING = 0.05
 
 _LWA = pin.LOCAL_WORLD_ALIGNED
+_WORLD = pin.Convention.WORLD
 _BASES = ("whole_body", "locked")
 
 
@@ -220,6 +222,22 @@ def _rows(axes):
 
     The selector is a slice when the rows are contiguous (a view, no copy)."""
     if isinstance(axes, str):
+        return _rows_cached(axes)
+    try:
+        key = tuple(axes)
+        hash(key)
+    except TypeError:
+        return _parse_rows(axes)
+    return _rows_cached(key)
+
+
+@functools.lru_cache(maxsize=64)
+def _rows_cached(axes):
+    return _parse_rows(axes)
+
+
+def _parse_rows(axes):
+    if isinstance(axes, str):
         named = {"linear": (0, 1, 2), "angular": (3, 4, 5), "full": (0, 1, 2, 3, 4, 5)}
         if axes in named:
             idx = named[axes]
@@ -248,7 +266,9 @@ def _rows(axes):
     names = tuple(AXIS_NAMES[i] for i in idx)
     if idx == tuple(range(idx[0], idx[0] + len(idx))):
         return slice(idx[0], idx[0] + len(idx)), names
-    return np.array(idx), names
+    sel = np.array(idx)
+    sel.setflags(write=False)   # shared through the cache
+    return sel, names
 
 
 def _base(base):
@@ -267,23 +287,36 @@ def _threshold(damping):
 
 
 # ----------------------------------------------------------- the damped inverse
-def _solve_task(Linv, B, eps):
-    """[Λ | Λ B] for the mobility Linv = J M⁻¹ Jᵀ (k, k) and B (k, m).
+def _task_rhs(k, m):
+    """Right-hand sides [I_k | B] for `_solve_task` (Fortran order, B to be filled)."""
+    return _task_rhs_template(k, m).copy(order="F")
 
-    One dposv on [I | B].  The bound λ_max(Λ) ≤ trace(Λ) certifies
-    σ_min ≥ ε cheaply; otherwise the eigenvalues decide and, below the
-    threshold, the damped inverse of the module docstring is used.
 
-    Returns (Λ, Λ B, damped).
+@functools.lru_cache(maxsize=32)
+def _task_rhs_template(k, m):
+    rhs = np.zeros((k, k + m), order="F")
+    rhs[:, :k] = np.eye(k)
+    rhs.setflags(write=False)
+    return rhs
+
+
+def _solve_task(Linv, rhs, eps):
+    """X = Λ rhs = [Λ | Λ B] for the mobility Linv = J M⁻¹ Jᵀ (k, k) and
+    rhs = [I_k | B] (k, k + m), Fortran order (see `_task_rhs`; not modified).
+
+    One dposv.  The bound λ_max(Λ) ≤ trace(Λ) certifies σ_min ≥ ε cheaply;
+    otherwise the eigenvalues decide and, below the threshold, the damped
+    inverse of the module docstring is used.
+
+    Returns (X, damped).
     """
     k = Linv.shape[0]
-    rhs = np.empty((k, k + B.shape[1]), order="F")
-    rhs[:, :k] = np.eye(k)
-    rhs[:, k:] = B
-    _, X, info = lapack.dposv(Linv, rhs, lower=0, overwrite_a=0, overwrite_b=1)
+    _, X, info = lapack.dposv(Linv, rhs)    # upper, no overwrite (keywords cost 0.5 µs)
     eps2 = eps * eps
-    if info == 0 and (eps2 == 0.0 or np.trace(X[:, :k]) * eps2 <= 1.0):
-        return X[:, :k], X[:, k:], False
+    # trace(Λ) by scalar reads: for k ≤ 6 cheaper than any NumPy reduction
+    r = range(k)
+    if info == 0 and (eps2 == 0.0 or sum(map(X.item, r, r)) * eps2 <= 1.0):
+        return X, False
     if eps2 == 0.0:
         raise ModelError(f"the task mobility J M⁻¹ Jᵀ is singular (LAPACK dposv info={info}): "
                          "the frame cannot move along some task axis here; pass a damping "
@@ -291,10 +324,10 @@ def _solve_task(Linv, B, eps):
     w, U = np.linalg.eigh(0.5 * (Linv + Linv.T))
     s2 = np.maximum(w, 0.0)
     if info == 0 and s2[0] >= eps2:
-        return X[:, :k], X[:, k:], False
+        return X, False
     lam2 = eps2 - s2[0]
     Lam = (U / (s2 + lam2)).dot(U.T)
-    return Lam, Lam.dot(B), True
+    return Lam.dot(rhs), True
 
 
 # ------------------------------------------------------------ kinematics pass
@@ -310,29 +343,57 @@ def _kinematics(robot, data, q, v, fid, rows):
     return M, c, g, J, Jdot_nu
 
 
-def _terms(robot, q, nu, fid, rows, locked, eps):
-    """The fast path of `task_space` (no validation): a tuple of fields."""
-    M, c, g, J, Jdot_nu = _kinematics(robot, robot.data, q, robot.S.dot(nu), fid, rows)
-    k = J.shape[0]
+def _terms(robot, q, nu, fid, rows, k, locked, eps):
+    """The fast path of `task_space` (no validation): a tuple of fields.
+
+    Whole body: J, c and g are written straight into the right-hand sides
+    [Jᵀ | c | g] of one dposv with M; then Λ [I | J M⁻¹c − J̇ν | J M⁻¹g] by a
+    second one (`_solve_task`).  Locked: [J_aᵀ | c_a | g_a | M_aw] with M_aa,
+    and the extra columns J M_aa⁻¹ M_aw − J_base give Γ.
+    """
+    model, data, S, St = robot.model, robot.data, robot.S, robot.St
+    v = S.dot(nu)
+    g_pin = pin.computeGeneralizedGravity(model, data, q)
+    M = St.dot(pin.crba(model, data, q, _WORLD)).dot(S)
+    J6 = pin.getFrameJacobian(model, data, fid, _LWA)[rows]     # data.J from crba WORLD
+    h_pin = pin.nonLinearEffects(model, data, q, v)
+    pin.forwardKinematics(model, data, q, v, np.zeros(model.nv))
+    Jdot_nu = pin.getFrameClassicalAcceleration(model, data, fid, _LWA).vector[rows]
     if locked:
-        J_base, J = J[:, :2], np.ascontiguousarray(J[:, 2:])
+        J_full = J6.dot(S)
+        J_base, J = J_full[:, :2], np.ascontiguousarray(J_full[:, 2:])
+        g = St.dot(g_pin)
+        rhs = np.empty((robot.n_arm, k + 4), order="F")
+        rhs[:, :k] = J.T
+        rhs[:, k] = St.dot(h_pin)[2:] - g[2:]
+        rhs[:, k + 1] = g[2:]
+        rhs[:, k + 2:] = M[2:, :2]
         Mx = M[2:, 2:]
-        rhs = np.column_stack((J.T, c[2:], g[2:], M[2:, :2]))
     else:
-        J_base, Mx = None, M
-        rhs = np.column_stack((J.T, c, g))
-    Y = _solve_spd(Mx, rhs)                      # [M⁻¹Jᵀ | M⁻¹c | M⁻¹g (| M⁻¹M_aw)]
+        J_base = None
+        rhs = np.empty((robot.nv, k + 2), order="F")
+        J = rhs[:, :k].T                                   # a C-order view
+        np.dot(J6, S, out=J)
+        c, g = rhs[:, k], rhs[:, k + 1]
+        np.dot(St, g_pin, out=g)
+        np.dot(St, h_pin, out=c)
+        c -= g
+        Mx = M
+    _, Y, info = lapack.dposv(Mx, rhs)          # [M⁻¹Jᵀ | M⁻¹c | M⁻¹g (| M⁻¹M_aw)]
+    if info:
+        _solve_spd(Mx, rhs)                     # raises the ModelError
     JY = J.dot(Y)
     Linv = JY[:, :k]
-    Linv = 0.5 * (Linv + Linv.T)
-    B = JY[:, k:]
-    B[:, 0] -= Jdot_nu
+    rhs2 = _task_rhs(k, JY.shape[1] - k)
+    rhs2[:, k:] = JY[:, k:]
+    rhs2[:, k] -= Jdot_nu
     if locked:
-        B[:, 2:] -= J_base
-    Lam, LB, damped = _solve_task(Linv, B, eps)
-    coupling = LB[:, 2:] if locked else None
+        rhs2[:, k + 2:] -= J_base
+    X, damped = _solve_task(Linv, rhs2, eps)
+    Lam = X[:, :k]
+    coupling = X[:, k + 2:] if locked else None
     Jbar = Y[:, :k].dot(Lam)
-    return J, Jdot_nu, Lam, Linv, LB[:, 0], LB[:, 1], Jbar, damped, J_base, coupling
+    return J, Jdot_nu, Lam, Linv, X[:, k], X[:, k + 1], Jbar, damped, J_base, coupling
 
 
 # ------------------------------------------------------------------ public API
@@ -368,9 +429,10 @@ def task_space(robot, q, nu, frame=None, axes="full", *, base="whole_body",
     fid, name = _frame(robot, frame)
     rows, names = _rows(axes)
     locked = _base(base)
-    terms = _terms(robot, q, nu, fid, rows, locked, _threshold(damping))
-    return TaskSpaceTerms(*terms[:8], threshold=_threshold(damping), J_base=terms[8],
-                          coupling=terms[9], frame=name, axes=names, base=base)
+    eps = _threshold(damping)
+    terms = _terms(robot, q, nu, fid, rows, len(names), locked, eps)
+    return TaskSpaceTerms(*terms[:8], threshold=eps, J_base=terms[8], coupling=terms[9],
+                          frame=name, axes=names, base=base)
 
 
 def cartesian_task_space(robot, q, nu, frame=None, axes="full", *, base="whole_body"):

@@ -1,0 +1,124 @@
+"""Outputs of `opspace simulate`: CSV and NPZ of the run, summary.json (each
+figure with its unit), a short text summary, the figures and the animation.
+Formats what `opspace.simulate` computed; no physics here."""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+
+import numpy as np
+
+from .sizing import CAUTIONS, _finite
+
+__all__ = ["simulation_text", "write_simulation_outputs"]
+
+
+def simulation_text(run, result, *, compare=None):
+    """The short text summary (str): verdict-style first lines, then figures."""
+    sc = run.scenario
+    s = result.summary()
+    lines = [f"{sc.name}: {result.status} ({s['duration']['value']:.2f} s simulated, "
+             f"{result.integrator}, step {result.dt * 1e3:g} ms, control {1 / result.control_period:g} Hz)"]
+    e = s.get("tool_position_error")
+    if e:
+        lines.append(f"tool position error: RMS {e['rms']['value'] * 1e3:.2f} mm, peak "
+                     f"{e['peak']['value'] * 1e3:.2f} mm")
+    if compare is not None:
+        c = compare.summary().get("tool_position_error")
+        if c:
+            lines.append(f"  with a {run.payload_mass_error or 0:+.0%} payload-mass error in the "
+                         f"controller: RMS {c['rms']['value'] * 1e3:.2f} mm, peak "
+                         f"{c['peak']['value'] * 1e3:.2f} mm")
+    sat = [n for n, v in s["efforts"].items() if v["saturated_share"]["value"] > 0]
+    lines.append("effort limits reached by: " + (", ".join(sat) if sat else "none"))
+    if "min_tip_over_margin" in s:
+        lines.append(f"least tip-over margin {s['min_tip_over_margin']['value'] * 1e3:.0f} mm; "
+                     f"largest traction use {s['max_traction_use']['value']:.2f} (slip at 1)")
+    lines.append("")
+    lines.append(f"{'coordinate':<16}{'peak':>12}{'RMS':>12}{'limit':>12}  unit")
+    for name, v in s["efforts"].items():
+        lim = v["limit"]["value"]
+        lines.append(f"{name:<16}{v['peak']['value']:>12.3f}{v['rms']['value']:>12.3f}"
+                     f"{('%.1f' % lim) if lim is not None else '–':>12}  {v['peak']['unit']}")
+    for name, v in s["wheel_energy_drawn"].items():
+        lines.append(f"energy drawn by {name}: {v['value']:.1f} J")
+    lines.append("")
+    lines += CAUTIONS
+    return "\n".join(lines)
+
+
+def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True,
+                             progress=None):
+    """Write run.csv, run.npz, summary.json, summary.txt, the figures (PNG) and
+    pick.gif into out_dir; files appear under their names only once complete.
+
+    Returns dict name -> Path.
+    """
+    from .. import plots
+    from ..plots import simulation as sp
+
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    sc, robot = run.scenario, run.robot
+    paths = {}
+
+    def put(name, write):
+        """write(tmp) then rename: tmp keeps the suffix (formats follow it)."""
+        path = out / name
+        tmp = path.with_name(f"{path.stem}.part{path.suffix}")
+        write(tmp)
+        os.replace(tmp, path)
+        paths[name] = path
+
+    put("run.csv", result.to_csv)
+    put("run.npz", result.to_npz)
+    summary = result.summary()
+    if compare is not None:
+        summary["with_payload_mass_error"] = {
+            "payload_mass_error": {"value": run.payload_mass_error, "unit": "1"},
+            **{k: v for k, v in compare.summary().items() if k == "tool_position_error"}}
+    summary["cautions"] = list(CAUTIONS)
+    put("summary.json", lambda p: p.write_text(json.dumps(_finite(summary), indent=2,
+                                                          ensure_ascii=False, allow_nan=False)))
+    put("summary.txt", lambda p: p.write_text(simulation_text(run, result, compare=compare) + "\n"))
+    figs = []
+    err = result.error
+    orient = np.linalg.norm(err[:, 3:6], axis=1) if err.shape[1] >= 6 else None
+    figs.append(("tracking_error.png", sp.tracking_error(
+        result.t, result.position_error, orientation_error=orient, pick=sc.pick,
+        release=sc.release, limits={"5 mm RMS target": 5.0, "15 mm peak target": 15.0})))
+    units = ["N·m", "N·m"] + ["N" if u == "m" else "N·m" for u in robot.arm_units]
+    figs.append(("efforts.png", sp.efforts(result.t, result.Q, list(result.coordinate_names),
+                                           result.effort_limit, saturated=result.saturated,
+                                           units=units)))
+    poses = np.array([robot.base_pose(q) for q in result.q])
+    instants = np.linspace(0, len(result.t) - 1, 6).astype(int)
+    figs.append(("base_path.png", sp.base_path(
+        poses[:, 0], poses[:, 1], poses[:, 2], footprint=robot.description.base.footprint,
+        instants=instants, tool=result.tool_position, target=result.target_position,
+        payload_position=sc.payload_position, wheel_radius=robot.wheel_radius,
+        half_track=robot.half_track)))
+    if result.stability is not None:
+        st = result.stability
+        j = int(np.nanargmin(st.margin))
+        P = np.array([c.position for c in robot.contacts])
+        figs.append(("support_zmp.png", plots.support_polygon_zmp(
+            st.polygon.vertices, P, [c.name for c in robot.contacts], st.zmp,
+            com=st.wrench.com[:, :2], worst_index=j, t=result.t,
+            worst_label=f"min margin {st.margin[j] * 1000:.0f} mm at t = {result.t[j]:.2f} s",
+            footprint=robot.description.base.footprint,
+            driven=[c.driven for c in robot.contacts], worst_edge=int(st.edge[j]))))
+    for k, (name, fig) in enumerate(figs):
+        put(name, lambda p, fig=fig: plots.save(fig, p))
+        if progress:
+            progress(k + 1, len(figs) + 1)
+    if animate:
+        frames = sp.frames_from_result(robot, result)
+        put("pick.gif", lambda p: sp.animation(frames, p,
+                                               footprint=robot.description.base.footprint,
+                                               payload_position=sc.payload_position))
+    if progress:
+        progress(len(figs) + 1, len(figs) + 1)
+    return paths
