@@ -256,3 +256,25 @@ def test_scenario_pick_before_the_tool_reaches_the_payload(tmp_path):
     with pytest.raises(opspace.ConfigError,
                        match=r"\[payload\] pick = 1 s comes before the tool reaches the payload"):
         ScenarioRun(load_scenario(path))
+
+
+def test_cli_simulate_bad_scenario_exits_2(tmp_path):
+    from conftest import run_cli_module
+    path = write_scenario(tmp_path, scenario_doc(simulation__integrator="leapfrog"))
+    res = run_cli_module("simulate", str(path), "-o", str(tmp_path / "out"))
+    assert res.returncode == 2, res.stderr
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and "[simulation] integrator must be rk4 or euler, got 'leapfrog'" in lines[0]
+    assert not (tmp_path / "out").exists()
+
+
+def test_pick_example_quick(tmp_path):
+    import runpy
+    from conftest import REPO
+    mod = runpy.run_path(str(REPO / "examples" / "pick_while_driving.py"))
+    result = mod["main"](["--quick", "-o", str(tmp_path)])
+    for name in ("run.csv", "summary.json", "summary.txt", "tracking_error.png", "efforts.png",
+                 "base_path.png"):
+        assert (tmp_path / name).is_file(), name
+    assert result.status == "completed"
+    assert not list(tmp_path.glob("*.part*"))

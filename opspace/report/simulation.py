@@ -16,7 +16,10 @@ __all__ = ["simulation_text", "write_simulation_outputs"]
 
 
 def simulation_text(run, result, *, compare=None):
-    """The short text summary (str): verdict-style first lines, then figures."""
+    """The short text summary (str): verdict-style first lines, then figures.
+
+    compare: (payload_mass_error, SimulationResult) of a second run, or None.
+    """
     sc = run.scenario
     s = result.summary()
     lines = [f"{sc.name}: {result.status} ({s['duration']['value']:.2f} s simulated, "
@@ -26,9 +29,10 @@ def simulation_text(run, result, *, compare=None):
         lines.append(f"tool position error: RMS {e['rms']['value'] * 1e3:.2f} mm, peak "
                      f"{e['peak']['value'] * 1e3:.2f} mm")
     if compare is not None:
-        c = compare.summary().get("tool_position_error")
+        err, other = compare
+        c = other.summary().get("tool_position_error")
         if c:
-            lines.append(f"  with a {run.payload_mass_error or 0:+.0%} payload-mass error in the "
+            lines.append(f"  with a {err:+.0%} payload-mass error in the "
                          f"controller: RMS {c['rms']['value'] * 1e3:.2f} mm, peak "
                          f"{c['peak']['value'] * 1e3:.2f} mm")
     sat = [n for n, v in s["efforts"].items() if v["saturated_share"]["value"] > 0]
@@ -53,6 +57,7 @@ def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True
                              progress=None):
     """Write run.csv, run.npz, summary.json, summary.txt, the figures (PNG) and
     pick.gif into out_dir; files appear under their names only once complete.
+    compare: (payload_mass_error, SimulationResult) of a second run, or None.
 
     Returns dict name -> Path.
     """
@@ -76,9 +81,10 @@ def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True
     put("run.npz", result.to_npz)
     summary = result.summary()
     if compare is not None:
+        err, other = compare
         summary["with_payload_mass_error"] = {
-            "payload_mass_error": {"value": run.payload_mass_error, "unit": "1"},
-            **{k: v for k, v in compare.summary().items() if k == "tool_position_error"}}
+            "payload_mass_error": {"value": err, "unit": "1"},
+            **{k: v for k, v in other.summary().items() if k == "tool_position_error"}}
     summary["cautions"] = list(CAUTIONS)
     put("summary.json", lambda p: p.write_text(json.dumps(_finite(summary), indent=2,
                                                           ensure_ascii=False, allow_nan=False)))
@@ -88,18 +94,21 @@ def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True
     orient = np.linalg.norm(err[:, 3:6], axis=1) if err.shape[1] >= 6 else None
     figs.append(("tracking_error.png", sp.tracking_error(
         result.t, result.position_error, orientation_error=orient, pick=sc.pick,
-        release=sc.release, limits={"5 mm RMS target": 5.0, "15 mm peak target": 15.0})))
+        release=sc.release, limits={"5 mm RMS target": 0.005, "15 mm peak target": 0.015})))
     units = ["N·m", "N·m"] + ["N" if u == "m" else "N·m" for u in robot.arm_units]
     figs.append(("efforts.png", sp.efforts(result.t, result.Q, list(result.coordinate_names),
                                            result.effort_limit, saturated=result.saturated,
                                            units=units)))
     poses = np.array([robot.base_pose(q) for q in result.q])
-    instants = np.linspace(0, len(result.t) - 1, 6).astype(int)
+    marks = [0.0, sc.pick, sc.release, result.t[-1]] + [w.t for w in sc.waypoints]
+    instants = sorted({int(np.argmin(np.abs(result.t - m))) for m in marks if m is not None})
+    if len(instants) > 7:
+        instants = [instants[i] for i in np.linspace(0, len(instants) - 1, 7).astype(int)]
     figs.append(("base_path.png", sp.base_path(
         poses[:, 0], poses[:, 1], poses[:, 2], footprint=robot.description.base.footprint,
         instants=instants, tool=result.tool_position, target=result.target_position,
         payload_position=sc.payload_position, wheel_radius=robot.wheel_radius,
-        half_track=robot.half_track)))
+        half_track=robot.half_track, t=result.t)))
     if result.stability is not None:
         st = result.stability
         j = int(np.nanargmin(st.margin))
@@ -115,10 +124,12 @@ def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True
         if progress:
             progress(k + 1, len(figs) + 1)
     if animate:
-        frames = sp.frames_from_result(robot, result)
+        frames = sp.frames_from_result(robot, result, max_frames=90)
         put("pick.gif", lambda p: sp.animation(frames, p,
                                                footprint=robot.description.base.footprint,
-                                               payload_position=sc.payload_position))
+                                               payload_position=sc.payload_position,
+                                               wheel_radius=robot.wheel_radius,
+                                               half_track=robot.half_track, max_frames=90))
     if progress:
         progress(len(figs) + 1, len(figs) + 1)
     return paths
