@@ -184,6 +184,18 @@ class Target:
         object.__setattr__(self, "acceleration", _twist("acceleration", self.acceleration))
 
     @classmethod
+    def trusted(cls, position, rotation, velocity, acceleration):
+        """A target from arrays already known to be valid (position (3,),
+        rotation (3, 3) orthonormal, velocity and acceleration (6,) float):
+        no checks, for a simulation's inner loop."""
+        obj = object.__new__(cls)
+        object.__setattr__(obj, "position", position)
+        object.__setattr__(obj, "rotation", rotation)
+        object.__setattr__(obj, "velocity", velocity)
+        object.__setattr__(obj, "acceleration", acceleration)
+        return obj
+
+    @classmethod
     def hold(cls, robot, q, frame=None):
         """Hold the frame's current world pose (zero velocity and acceleration)."""
         fid, _ = _frame(robot, frame)
@@ -531,6 +543,11 @@ class OperationalSpaceController:
         r, b, kw = self.robot.wheel_radius, self.robot.half_track, self.wheel_gain
         v, w = plan.a + kw * plan.v, plan.alpha + kw * plan.omega
         return np.array(((v + b * w) / r, (v - b * w) / r))
+
+    def last_demand(self):
+        """(Q_demand, task error) of the last call, cheaply (arrays owned by the
+        controller until the next call); see `info` for everything."""
+        return self._info[1], self._z[:6][self._rows]
 
     @property
     def info(self):

@@ -553,7 +553,14 @@ class ScenarioRun:
             posture=c["posture"] if c["posture"] is not None else arm0,
             posture_gains=Gains.from_stiffness(c["posture_stiffness"], 1.0, size=robot.n_arm),
             wheel_gain=c["wheel_gain"], friction_feedforward=c["friction_feedforward"])
-        self._Target, self._BasePlan = Target, BasePlan
+        # every control sample's target and plan, built once (validated paths)
+        tool, b = self.tool, self.base
+        vel = np.concatenate([tool.v, tool.w], axis=1)
+        acc = np.concatenate([tool.a, tool.dw], axis=1)
+        self._targets = [Target.trusted(tool.p[i], tool.R[i], vel[i], acc[i])
+                         for i in range(len(self.t_ctrl))]
+        self._plans = [BasePlan(*vals) for vals in zip(b["v"].tolist(), b["omega"].tolist(),
+                                                       b["a"].tolist(), b["alpha"].tolist())]
         self.events = []
         if sc.pick is not None:
             payload = robot.description.payload if sc.payload == "rated" else sc.payload
@@ -568,14 +575,15 @@ class ScenarioRun:
                 self.events.append(PayloadEvent(sc.release, "release"))
 
     def control(self, t, q, nu):
+        """The controller sampled at t: (Q, step info).  Targets and plans come
+        from the precomputed, validated paths, so the unchecked fast paths are
+        used (`Target.trusted`, `OperationalSpaceController._command`)."""
         i = min(int(round(t / self.scenario.control_period)), len(self.t_ctrl) - 1)
-        tool, b = self.tool, self.base
-        target = self._Target(tool.p[i], tool.R[i], np.concatenate([tool.v[i], tool.w[i]]),
-                              np.concatenate([tool.a[i], tool.dw[i]]))
-        plan = self._BasePlan(b["v"][i], b["omega"][i], b["a"][i], b["alpha"][i])
-        Q = self.controller.command(q, nu, target, base=plan)
-        info = self.controller.info
-        return Q, _StepInfo(info.Q_demand, info.saturated, info.error, tool.p[i])
+        target, plan = self._targets[i], self._plans[i]
+        c = self.controller
+        Q = c._command(q, nu, target, plan)
+        Q_demand, error = c.last_demand()
+        return Q, _StepInfo(Q_demand, np.abs(Q_demand) > c.effort_limit, error, target.position)
 
     def run(self, *, integrator=None, progress=None, stability=True):
         sc = self.scenario

@@ -153,6 +153,9 @@ class _RollingTerms:
         self.Jy = P[2:, 0:1] * S[2][None, :]
         self.c_rr = robot.rolling_resistance
         self.r = robot.wheel_radius
+        #: per caster (J_x, J_y on the two wheel columns) as floats for scalar loops
+        self.caster_rows = [(float(jx[0]), float(jx[1]), float(jy[0]), float(jy[1]))
+                            for jx, jy in zip(self.Jx, self.Jy)]
 
 
 def _rolling_terms(robot):
@@ -191,11 +194,11 @@ def _static_loads(robot, terms, qs, coms):
 
 def _static_loads_one(robot, terms, q):
     """Static contact loads (k,) N at one configuration (no validation)."""
-    com_w = pin.centerOfMass(robot.model, robot.data, q, False)
-    dx, dy = com_w[0] - q[0], com_w[1] - q[1]
-    x_p, y_p = q[2] * dx + q[3] * dy, -q[3] * dx + q[2] * dy
+    cx, cy, _ = pin.centerOfMass(robot.model, robot.data, q, False).tolist()
+    x, y, c, s = q[:4].tolist()
+    dx, dy = cx - x, cy - y
     weight = robot.total_mass() * -robot.model.gravity.linear[2]
-    N = terms.A_pinv.dot((weight, weight * x_p, weight * y_p))
+    N = terms.A_pinv.dot((weight, weight * (c * dx + s * dy), weight * (c * dy - s * dx)))
     return np.maximum(N, 0.0, out=N)
 
 
@@ -207,11 +210,10 @@ class RollingLoads:
 
     def __init__(self, robot, q):
         terms = _rolling_terms(robot)
-        N = _static_loads_one(robot, terms, q)
-        self.k = [float(v) for v in terms.c_rr * terms.r * N[:2]]
-        self.casters = [(float(jx[0]), float(jx[1]), float(jy[0]), float(jy[1]),
-                         float(terms.c_rr * n))
-                        for jx, jy, n in zip(terms.Jx, terms.Jy, N[2:]) if n > 0.0]
+        N = _static_loads_one(robot, terms, q).tolist()
+        c = terms.c_rr
+        self.k = (c * terms.r * N[0], c * terms.r * N[1])
+        self.casters = [(*rows, c * n) for rows, n in zip(terms.caster_rows, N[2:]) if n > 0.0]
 
     def wheel_efforts(self, nu):
         """(f_r, f_l), N·m on the wheel coordinates (left-hand side)."""
