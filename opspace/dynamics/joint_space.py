@@ -231,11 +231,22 @@ class RollingLoads:
         return f0, f1
 
 
+def rolling_loads(robot, q):
+    """`RollingLoads` at q, reused while q and the robot's revision stay the
+    same (a controller and a simulator ask for the same q in one step)."""
+    cached = getattr(robot, "_rolling_loads", None)
+    if cached is not None and cached[0] == robot.revision and np.array_equal(cached[1], q):
+        return cached[2]
+    loads = RollingLoads(robot, q)
+    robot._rolling_loads = (robot.revision, q.copy(), loads)
+    return loads
+
+
 def _rolling_resistance(robot, q, nu):
     """Rolling-resistance efforts f_rr (nv,), on the left-hand side (one state)."""
     f = np.zeros(robot.nv)
     if robot.rolling_resistance != 0.0:
-        f[0], f[1] = RollingLoads(robot, q).wheel_efforts(nu)
+        f[0], f[1] = rolling_loads(robot, q).wheel_efforts(nu)
     return f
 
 
