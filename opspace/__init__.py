@@ -18,6 +18,8 @@ from .errors import ConfigError, ModelError
 from .model import GRAVITY, MobileManipulator, load_robot
 from . import sizing, stability, trajectory  # noqa: E402  (sub-modules as namespaces)
 from .simulate import SimulationError, SimulationResult, run_scenario, simulate  # noqa: E402
+from . import sweep  # noqa: E402
+from .sweep import load_sweep, run_sweep  # noqa: E402
 from .sizing import SizingResult, size  # noqa: E402
 
 __version__ = "0.1.0"
@@ -47,6 +49,7 @@ __all__ = [
     "load_description",
     "load_duty_cycle",
     "load_robot",
+    "load_sweep",
     "MobileManipulator",
     "ModelError",
     "OperationalSpaceController",
@@ -54,6 +57,7 @@ __all__ = [
     "potential_energy",
     "RobotDescription",
     "run_scenario",
+    "run_sweep",
     "simulate",
     "SimulationError",
     "SimulationResult",
@@ -61,6 +65,7 @@ __all__ = [
     "sizing",
     "SizingResult",
     "stability",
+    "sweep",
     "Target",
     "task_space",
     "TaskSpaceTerms",

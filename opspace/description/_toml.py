@@ -20,7 +20,7 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover
     import tomli as tomllib
 
-__all__ = ["Section", "check_inertia", "inertia_matrix", "read_toml"]
+__all__ = ["Entry", "Section", "check_inertia", "inertia_matrix", "read_toml"]
 
 
 # ---------------------------------------------------------------------------
@@ -110,6 +110,22 @@ class Section:
         if unknown:
             valid = ", ".join(sorted(self.seen))
             self.fail(unknown[0], f"is not a known key (valid keys: {valid})")
+
+
+class Entry(Section):
+    """One table of an array of tables ([[motor]], [[parameter]], ...): messages
+    read ``drives.toml: [[motor]] 2 'M-90' rated_torque must ...`` (the entry's
+    1-based index and, when it has one, its `name_key` value)."""
+
+    def __init__(self, file, kind, index, table, name_key="name"):
+        self.label = f"[[{kind}]] {index}"
+        super().__init__(file, kind, table)
+        name = table.get(name_key) if isinstance(table, dict) else None
+        if isinstance(name, str) and name.strip():
+            self.label += f" {name!r}"
+
+    def where(self, key):
+        return f"{self.file}: {self.label} {key}".rstrip()
 
 
 def _unit(unit):

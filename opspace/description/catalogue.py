@@ -65,7 +65,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Section, read_toml
+from ._toml import Entry, Section, read_toml
 
 __all__ = ["Catalogue", "Gearbox", "Motor", "load_catalogue"]
 
@@ -178,19 +178,6 @@ def _by_name(items, name, kind, path):
 # ---------------------------------------------------------------------------
 # reading
 # ---------------------------------------------------------------------------
-class _Entry(Section):
-    """An entry of an array of tables; messages read
-    ``drives.toml: [[motor]] 2 'M-90' rated_torque must be > 0 N·m, got -1``."""
-
-    def __init__(self, file, kind, index, table):
-        self.label = f"[[{kind}]] {index}"
-        super().__init__(file, kind, table)
-        name = table.get("name")
-        if isinstance(name, str) and name.strip():
-            self.label += f" {name!r}"
-
-    def where(self, key):
-        return f"{self.file}: {self.label} {key}".rstrip()
 
 
 def load_catalogue(path):
@@ -220,9 +207,9 @@ def load_catalogue(path):
     s = Section(path, "catalogue", doc["catalogue"])
     name = s.string("name")
     s.finish()
-    motors = tuple(_read_motor(_Entry(path, "motor", i + 1, entry))
+    motors = tuple(_read_motor(Entry(path, "motor", i + 1, entry))
                    for i, entry in enumerate(_entries(doc, "motor", fname)))
-    gearboxes = tuple(_read_gearbox(_Entry(path, "gearbox", i + 1, entry))
+    gearboxes = tuple(_read_gearbox(Entry(path, "gearbox", i + 1, entry))
                       for i, entry in enumerate(_entries(doc, "gearbox", fname)))
     _check_unique(motors, "motor", fname)
     _check_unique(gearboxes, "gearbox", fname)

@@ -152,7 +152,7 @@ def size(duty, *, robot=None, catalogue=None, search=True, progress=None):
     try:
         wd = WheelDuty(t=ev.t, torque=ev.tau_out, speed=ev.wheel_speed,
                        acceleration=ev.wheel_acc, cycles_per_hour=duty.cycles_per_hour,
-                       wheels=WHEELS)
+                       wheels=("right", "left"))   # drives.py appends " wheel"
     except ValueError as exc:
         raise ConfigError(f"{duty.path.name}: [cycle] cycles_per_hour: {exc}") from None
     drv = robot.description.drive
