@@ -25,7 +25,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 import pinocchio as pin
@@ -91,7 +90,7 @@ class MobileManipulator:
     def __init__(self, description: RobotDescription):
         self.description = description
         self.name = description.name
-        base, wheel, drive = description.base, description.wheel, description.drive
+        base = description.base
         self.wheel_radius = base.wheel_radius
         self.half_track = base.half_track
         self.rolling_resistance = base.rolling_resistance

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 import opspace
-from conftest import base_doc, make_robot, random_state, two_link_urdf
+from conftest import base_doc, make_robot, two_link_urdf
 
 G = 9.80665
 

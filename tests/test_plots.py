@@ -19,7 +19,6 @@ import struct
 
 import numpy as np
 import pytest
-from matplotlib.lines import Line2D
 from matplotlib.patches import Circle, Polygon, Rectangle
 
 from opspace import plots

@@ -11,7 +11,7 @@ import pytest
 
 import opspace
 from opspace.description.scenario import load_scenario
-from opspace.simulate import (PayloadEvent, ScenarioRun, SimulationError, run_scenario,
+from opspace.simulate import (PayloadEvent, ScenarioRun, SimulationError,
                               simulate)
 from conftest import DEMO, base_doc, make_robot, two_link_urdf, write_toml
 

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 import opspace
-from opspace.stability import ground_wrench, normal_loads, stability_track
+from opspace.stability import ground_wrench, stability_track
 from conftest import base_doc, make_robot, two_link_urdf
 
 G = opspace.GRAVITY

@@ -34,7 +34,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Section, check_inertia, inertia_matrix, read_toml
+from ._toml import Section, check_inertia, read_toml
 
 __all__ = [
     "ArmJointDrive",

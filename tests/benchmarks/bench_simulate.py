@@ -448,7 +448,8 @@ def cost_pieces(run, res, repeat, stride=3):
     a_kkt = pin.forwardDynamics(model, data, qs[i], S.dot(nus[i]), taus[i], Jc, gamma)
     kkt_check = float(np.abs(a_kkt[3:] - frictionless.accel(qs[i], nus[i], Qs[i])).max())
     h = sc.step
-    cand["rk4"] = (_rk4, [(model, plant, S, res.q[i], res.nu[i], res.nu_dot[i], res.Q[i], h)
+    S_h = (S * (0.5 * h), S * h, S * (h / 6.0))     # as `simulate` pre-scales it
+    cand["rk4"] = (_rk4, [(model, plant, S_h, res.q[i], res.nu[i], res.nu_dot[i], res.Q[i], h)
                           for i in sel[:-1]])
     cand["integrate"] = (lambda q, nu: pin.integrate(model, q, S.dot(nu) * h), qn)
 

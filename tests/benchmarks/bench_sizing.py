@@ -17,7 +17,6 @@ import tempfile
 import time
 from pathlib import Path
 
-import numpy as np
 
 import opspace
 from opspace.sizing.cycle import evaluate_cycle
