@@ -529,6 +529,7 @@ class OperationalSpaceController:
         Q_sent = np.minimum(Q, self.effort_limit)
         np.maximum(Q_sent, self._neg_limit, out=Q_sent)
         self._info = (Q_sent, Q, LB, Jdot_nu, ga, nd0, damped)
+        self._Mh = (M, h)      # the reduced M and c + g at this (q, ν), for a simulator to reuse
         return Q_sent
 
     def _posture_error(self, q):

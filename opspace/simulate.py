@@ -219,7 +219,12 @@ class _Plant:
     def accel(self, q, nu, Q):
         """ν̇ (nv,) at (q, ν) under efforts Q; ModelError if M is not PD."""
         M = self.St.dot(pin.crba(self.model, self.data, q)).dot(self.S)
-        rhs = Q - self.St.dot(pin.nonLinearEffects(self.model, self.data, q, self.S.dot(nu)))
+        h = self.St.dot(pin.nonLinearEffects(self.model, self.data, q, self.S.dot(nu)))
+        return self.accel_from(M, h, nu, Q)
+
+    def accel_from(self, M, h, nu, Q):
+        """ν̇ from the reduced M and h = c + g already computed at (q, ν)."""
+        rhs = Q - h
         if self.friction:
             rhs -= self.coulomb * np.sign(nu) + self.viscous * nu
             if self.rolling:
@@ -325,6 +330,8 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     n_rec = n_steps // record_every + 1
     rec = _Recorder(robot, n_rec)
     saved_payload = robot.payload
+    other = controller_robot if controller_robot is not None and controller_robot is not robot else None
+    saved_estimate = other.payload if other is not None else None
     Q = np.zeros(robot.nv)
     info = None
     t = 0.0
@@ -351,7 +358,8 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
                                     f"{Qd[i]:.4g}, more than {blowup:g} x its limit "
                                     f"{limit[i]:g}")
             plant.start_step(q)
-            nu_dot = plant.accel(q, nu, Q)
+            Mh = getattr(info, "Mh", None) if step % n_ctrl == 0 else None
+            nu_dot = plant.accel(q, nu, Q) if Mh is None else plant.accel_from(*Mh, nu, Q)
             if step % record_every == 0:
                 rec.add(t, q, nu, nu_dot, Q, info, robot.payload is not None)
             if step == n_steps:
@@ -372,6 +380,10 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
         robot.detach_payload()
         if saved_payload is not None:
             robot.attach_payload(saved_payload)
+        if other is not None:             # the controller's model gets its payload back too
+            other.detach_payload()
+            if saved_estimate is not None:
+                other.attach_payload(saved_estimate)
     picked = next((e.payload for e in events if e.kind == "pick"), robot_payload_end)
     result = rec.result(robot, status, message, dt, control_period, integrator,
                         stability=stability, end_payload=picked)
@@ -505,6 +517,7 @@ class _StepInfo:
     saturated: np.ndarray
     error: np.ndarray
     target_position: np.ndarray
+    Mh: tuple | None = None       # (M, c + g) the controller computed at this (q, ν)
 
 
 class ScenarioRun:
@@ -569,7 +582,8 @@ class ScenarioRun:
             self.controller_robot, axes=c["axes"], mode=c["mode"], gains=gains,
             posture=c["posture"] if c["posture"] is not None else arm0,
             posture_gains=Gains.from_stiffness(c["posture_stiffness"], 1.0, size=robot.n_arm),
-            wheel_gain=c["wheel_gain"], friction_feedforward=c["friction_feedforward"])
+            wheel_gain=c["wheel_gain"], friction_feedforward=c["friction_feedforward"],
+            friction_velocity=c["friction_velocity"])
         # every control sample's target and plan, built once (validated paths)
         tool, b = self.tool, self.base
         vel = np.concatenate([tool.v, tool.w], axis=1)
@@ -600,7 +614,9 @@ class ScenarioRun:
         c = self.controller
         Q = c._command(q, nu, target, plan)
         Q_demand, error = c.last_demand()
-        return Q, _StepInfo(Q_demand, np.abs(Q_demand) > c.effort_limit, error, target.position)
+        # with a perfect model the plant's first RK4 stage reuses the controller's M, c + g
+        Mh = c._Mh if self.controller_robot is self.robot else None
+        return Q, _StepInfo(Q_demand, np.abs(Q_demand) > c.effort_limit, error, target.position, Mh)
 
     def run(self, *, integrator=None, progress=None, stability=True):
         sc = self.scenario

@@ -22,6 +22,8 @@
     posture_stiffness = 25.0     # 1/s²
     wheel_gain = 10.0            # 1/s, wheel-rate servo
     friction_feedforward = true
+    friction_velocity = 0.02     # rad/s or m/s: the Coulomb feed-forward is f_C tanh(ν / this)
+                                 # (a sampled sign(ν) near rest pushes the wrong way); 0 = sign
     payload_mass_error = 0.0     # the controller's payload mass is (1 + this) × the true one
 
     [[base]]                     # base plan, in order: straight | arc | turn | dwell
@@ -182,6 +184,7 @@ def load_scenario(path):
         "posture_stiffness": s.number("posture_stiffness", 25.0, unit="1/s²", lo=0.0),
         "wheel_gain": s.number("wheel_gain", 10.0, unit="1/s", lo=0.0),
         "friction_feedforward": _bool(s, "friction_feedforward", True),
+        "friction_velocity": s.number("friction_velocity", 0.02, unit="rad/s or m/s", lo=0.0),
         "payload_mass_error": s.number("payload_mass_error", 0.0, lo=-0.9, hi=10.0),
     }
     s.finish()

@@ -156,6 +156,8 @@ class _RollingTerms:
         #: per caster (J_x, J_y on the two wheel columns) as floats for scalar loops
         self.caster_rows = [(float(jx[0]), float(jx[1]), float(jy[0]), float(jy[1]))
                             for jx, jy in zip(self.Jx, self.Jy)]
+        #: rows of A⁺ as floats: N_i = W (a_i0 + a_i1 x_p + a_i2 y_p)
+        self.A_rows = [tuple(float(v) for v in row) for row in self.A_pinv]
 
 
 def _rolling_terms(robot):
@@ -209,11 +211,17 @@ class RollingLoads:
     velocity (J_x ν, J_y ν), which only the wheel rates move."""
 
     def __init__(self, robot, q):
+        # the loads of `_static_loads_one`, written in scalars (an inner-loop path)
         terms = _rolling_terms(robot)
-        N = _static_loads_one(robot, terms, q).tolist()
-        c = terms.c_rr
-        self.k = (c * terms.r * N[0], c * terms.r * N[1])
-        self.casters = [(*rows, c * n) for rows, n in zip(terms.caster_rows, N[2:]) if n > 0.0]
+        cx, cy, _ = pin.centerOfMass(robot.model, robot.data, q, False).tolist()
+        x, y, c, s = q[:4].tolist()
+        dx, dy = cx - x, cy - y
+        xp, yp = c * dx + s * dy, c * dy - s * dx
+        W = robot.total_mass() * -robot.model.gravity.linear[2]
+        N = [max(W * (a0 + a1 * xp + a2 * yp), 0.0) for a0, a1, a2 in terms.A_rows]
+        c_rr, r = terms.c_rr, terms.r
+        self.k = (c_rr * r * N[0], c_rr * r * N[1])
+        self.casters = [(*rows, c_rr * n) for rows, n in zip(terms.caster_rows, N[2:]) if n > 0.0]
 
     def wheel_efforts(self, nu):
         """(f_r, f_l), N·m on the wheel coordinates (left-hand side)."""
