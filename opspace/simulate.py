@@ -541,7 +541,7 @@ class ScenarioRun:
             sc, robot, sc.arm_start, "[simulation] arm_start")
         self.q0 = robot.configuration(arm=arm0)
         # base plan on the control grid
-        pieces = [_base_piece(tr, seg) for seg in sc.base]
+        pieces = [tr.base_piece(seg.kind, seg.values) for seg in sc.base]
         self.timeline = tr.Timeline(pieces) if pieces else None
         h = sc.control_period
         self.t_ctrl = np.arange(int(round(sc.duration / h)) + 1) * h
@@ -631,24 +631,6 @@ def _fit(x, n, *, hold):
     if len(x) >= n:
         return x[:n]
     return np.concatenate([x, np.full(n - len(x), x[-1] if hold else 0.0)])
-
-
-def _base_piece(tr, seg):
-    v = seg.values
-    if seg.kind == "straight":
-        prof = (tr.s_curve(v["distance"], v["speed"], v["acceleration"], v["jerk"]) if "jerk" in v
-                else tr.trapezoidal(v["distance"], v["speed"], v["acceleration"], d_max=v["deceleration"]))
-        return tr.Piece(base=tr.line(prof))
-    if seg.kind == "arc":
-        L = abs(v["radius"]) * v["angle"]
-        prof = (tr.s_curve(L, v["speed"], v["acceleration"], v["jerk"]) if "jerk" in v
-                else tr.trapezoidal(L, v["speed"], v["acceleration"], d_max=v["deceleration"]))
-        return tr.Piece(base=tr.arc(prof, v["radius"]))
-    if seg.kind == "turn":
-        prof = (tr.s_curve(v["angle"], v["rate"], v["acceleration"], v["jerk"]) if "jerk" in v
-                else tr.trapezoidal(v["angle"], v["rate"], v["acceleration"]))
-        return tr.Piece(base=tr.spin(prof))
-    return tr.Piece(duration=v["duration"])
 
 
 def run_scenario(path_or_scenario, *, payload_mass_error=None, integrator=None, progress=None):

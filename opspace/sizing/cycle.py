@@ -39,36 +39,14 @@ from ..stability import stability_track
 __all__ = ["CycleEvaluation", "build_timeline", "evaluate_cycle"]
 
 
-def _linear_profile(distance, values):
-    if "jerk" in values:
-        return tr.s_curve(distance, values["speed"], values["acceleration"], values["jerk"])
-    return tr.trapezoidal(distance, values["speed"], values["acceleration"],
-                          d_max=values["deceleration"])
-
-
 def _piece(seg, robot, duty, q_arm):
     """(Piece, arm position after it) for one validated segment."""
     v = seg.values
-    if seg.kind == "straight":
-        return tr.Piece(base=tr.line(_linear_profile(v["distance"], v))), q_arm
-    if seg.kind == "arc":
-        length = abs(v["radius"]) * v["angle"]
-        return tr.Piece(base=tr.arc(_linear_profile(length, v), v["radius"])), q_arm
-    if seg.kind == "turn":
-        if "jerk" in v:
-            profile = tr.s_curve(v["angle"], v["rate"], v["acceleration"], v["jerk"])
-        else:
-            profile = tr.trapezoidal(v["angle"], v["rate"], v["acceleration"])
-        return tr.Piece(base=tr.spin(profile)), q_arm
-    if seg.kind == "stop":
-        speed, a, d = v["speed"], v["acceleration"], v["deceleration"]
-        distance = speed**2 / (2 * a) + speed * v["cruise"] + speed**2 / (2 * d)
-        return tr.Piece(base=tr.line(tr.trapezoidal(distance, speed, a, d_max=d))), q_arm
     if seg.kind == "arm":
         target = resolve_pose(duty, robot, v["to"], f"[[segment]] {seg.index + 1} (arm) to")
         move = tr.joint_move(q_arm, target, v["duration"], profile=v["profile"])
         return tr.Piece(arm=move), target
-    return tr.Piece(duration=v["duration"]), q_arm   # dwell
+    return tr.base_piece(seg.kind, v), q_arm
 
 
 def start_pose(duty, robot):
