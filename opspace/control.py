@@ -46,7 +46,7 @@ import pinocchio as pin
 from scipy.linalg import lapack
 
 from ._checks import as_vector as _vec
-from .dynamics.joint_space import _friction, _solve_spd
+from .dynamics.joint_space import _solve_spd, rolling_loads
 from .dynamics.task_space import (DEFAULT_DAMPING, _frame, _rows, _solve_task, _task_rhs,
                                   _threshold, task_space)
 
@@ -523,9 +523,16 @@ class OperationalSpaceController:
             Q = M.dot(nu_dot)
             Q += h
         if self.friction_feedforward:
-            Q += _friction(robot, q, nu)
-            if self.friction_velocity:   # f_C (tanh(ν/v_s) − sign ν): the smoothed Coulomb term
-                Q += robot.coulomb * (np.tanh(nu / self.friction_velocity) - np.sign(nu))
+            # f = f_C sign(ν) (or f_C tanh(ν/v_s), smoothed) + f_v ν + rolling resistance
+            if self.friction_velocity:
+                Q += robot.coulomb * np.tanh(nu * (1.0 / self.friction_velocity))
+            else:
+                Q += robot.coulomb * np.sign(nu)
+            Q += robot.viscous * nu
+            if robot.rolling_resistance:
+                f0, f1 = rolling_loads(robot, q).wheel_efforts(nu)
+                Q[0] += f0
+                Q[1] += f1
         Q_sent = np.minimum(Q, self.effort_limit)
         np.maximum(Q_sent, self._neg_limit, out=Q_sent)
         self._info = (Q_sent, Q, LB, Jdot_nu, ga, nd0, damped)
