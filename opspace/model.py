@@ -23,6 +23,7 @@ forces do no work along S).
 
 from __future__ import annotations
 
+import contextlib
 import math
 from dataclasses import dataclass
 
@@ -359,6 +360,20 @@ class MobileManipulator:
         self.model.inertias[self._tool_joint] = self._bare_tool_inertia + added
         self.payload = payload
         self.revision += 1
+
+    @contextlib.contextmanager
+    def kept(self):
+        """Context in which the payload and the ground slope may be changed; both
+        are restored on exit (the model is mutated meanwhile)."""
+        payload, slope = self.payload, self.slope
+        try:
+            yield self
+        finally:
+            self.detach_payload()
+            if payload is not None:
+                self.attach_payload(payload)
+            if self.slope != slope:
+                self.set_ground_slope(slope)
 
     def detach_payload(self):
         """Remove the payload (mutates the model); no-op if none attached."""

@@ -39,6 +39,7 @@ definite.
 
 from __future__ import annotations
 
+import contextlib
 import math
 from dataclasses import dataclass, field
 
@@ -329,61 +330,55 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     finite_limit = np.isfinite(limit)
     n_rec = n_steps // record_every + 1
     rec = _Recorder(robot, n_rec)
-    saved_payload = robot.payload
-    other = controller_robot if controller_robot is not None and controller_robot is not robot else None
-    saved_estimate = other.payload if other is not None else None
     Q = np.zeros(robot.nv)
     info = None
     t = 0.0
     k_event = 0
     status, message = "completed", "completed"
     h = dt
-    try:
-        for step in range(n_steps + 1):
-            t = step * dt
-            while k_event < len(events) and events[k_event].t <= t + 1e-12:
-                nu = _apply_event(events[k_event], robot, plant, controller_robot, q, nu)
-                k_event += 1
-            if step % n_ctrl == 0 and control is not None:
-                Q, info = control(t, q, nu)
-                if any_locked:
-                    Q = np.where(locked, 0.0, Q)
-                # the blow-up test only when something may be over its limit
-                if info is None or info.saturated.any():
-                    Qd = info.Q_demand if info is not None else Q
-                    over = finite_limit & (np.abs(Qd) > blowup * limit)
-                    if over.any():
-                        i = int(np.argmax(over))
-                        raise _Stop(f"effort of {robot.coordinate_names[i]} demanded "
-                                    f"{Qd[i]:.4g}, more than {blowup:g} x its limit "
-                                    f"{limit[i]:g}")
-            plant.start_step(q)
-            Mh = getattr(info, "Mh", None) if step % n_ctrl == 0 else None
-            nu_dot = plant.accel(q, nu, Q) if Mh is None else plant.accel_from(*Mh, nu, Q)
-            if step % record_every == 0:
-                rec.add(t, q, nu, nu_dot, Q, info, robot.payload is not None)
-            if step == n_steps:
-                break
-            if integrator == "rk4":
-                q, nu = _rk4(model, plant, S_h, q, nu, nu_dot, Q, h)
-            else:
-                nu = nu + h * nu_dot
-                q = pin.integrate(model, q, S.dot(nu) * h)
-            if not (math.isfinite(nu.dot(nu)) and math.isfinite(q.dot(q))):
-                raise _Stop("the state became non-finite (NaN or inf)")
-            if progress and step % 500 == 0:
-                progress(step, n_steps)
-    except (_Stop, ModelError) as exc:
-        status, message = "stopped", f"stopped at t = {t:.4f} s: {exc}"
-    finally:
+    # the plant's payload (and the controller's own model's) are restored afterwards
+    with contextlib.ExitStack() as kept:
+        kept.enter_context(robot.kept())
+        if controller_robot is not None and controller_robot is not robot:
+            kept.enter_context(controller_robot.kept())
+        try:
+            for step in range(n_steps + 1):
+                t = step * dt
+                while k_event < len(events) and events[k_event].t <= t + 1e-12:
+                    nu = _apply_event(events[k_event], robot, plant, controller_robot, q, nu)
+                    k_event += 1
+                if step % n_ctrl == 0 and control is not None:
+                    Q, info = control(t, q, nu)
+                    if any_locked:
+                        Q = np.where(locked, 0.0, Q)
+                    # the blow-up test only when something may be over its limit
+                    if info is None or info.saturated.any():
+                        Qd = info.Q_demand if info is not None else Q
+                        over = finite_limit & (np.abs(Qd) > blowup * limit)
+                        if over.any():
+                            i = int(np.argmax(over))
+                            raise _Stop(f"effort of {robot.coordinate_names[i]} demanded "
+                                        f"{Qd[i]:.4g}, more than {blowup:g} x its limit "
+                                        f"{limit[i]:g}")
+                plant.start_step(q)
+                Mh = getattr(info, "Mh", None) if step % n_ctrl == 0 else None
+                nu_dot = plant.accel(q, nu, Q) if Mh is None else plant.accel_from(*Mh, nu, Q)
+                if step % record_every == 0:
+                    rec.add(t, q, nu, nu_dot, Q, info, robot.payload is not None)
+                if step == n_steps:
+                    break
+                if integrator == "rk4":
+                    q, nu = _rk4(model, plant, S_h, q, nu, nu_dot, Q, h)
+                else:
+                    nu = nu + h * nu_dot
+                    q = pin.integrate(model, q, S.dot(nu) * h)
+                if not (math.isfinite(nu.dot(nu)) and math.isfinite(q.dot(q))):
+                    raise _Stop("the state became non-finite (NaN or inf)")
+                if progress and step % 500 == 0:
+                    progress(step, n_steps)
+        except (_Stop, ModelError) as exc:
+            status, message = "stopped", f"stopped at t = {t:.4f} s: {exc}"
         robot_payload_end = robot.payload
-        robot.detach_payload()
-        if saved_payload is not None:
-            robot.attach_payload(saved_payload)
-        if other is not None:             # the controller's model gets its payload back too
-            other.detach_payload()
-            if saved_estimate is not None:
-                other.attach_payload(saved_estimate)
     picked = next((e.payload for e in events if e.kind == "pick"), robot_payload_end)
     result = rec.result(robot, status, message, dt, control_period, integrator,
                         stability=stability, end_payload=picked)
@@ -481,14 +476,11 @@ class _Recorder:
 
 def _stability(robot, qs, nus, nu_dots, Qs, payload, end_payload):
     """ZMP, loads and traction over the samples, grouped by payload state."""
-    from .dynamics.joint_space import _friction_batch
     from .sizing.cycle import _merge_tracks
-    from .stability import stability_track
+    from .stability import stability_track, tyre_forces
 
-    saved = robot.payload
     pieces = []
-    J = robot.description.wheel.spin_inertia + robot.description.drive.reflected_inertia
-    try:
+    with robot.kept():
         for held in (False, True):
             m = payload == held
             if not m.any():
@@ -497,16 +489,11 @@ def _stability(robot, qs, nus, nu_dots, Qs, payload, end_payload):
                 robot.attach_payload(end_payload or robot.description.payload)
             else:
                 robot.detach_payload()
-            f = _friction_batch(robot, qs[m], nus[m])[:, :2]
-            F = (Qs[m, :2] - f - J * nu_dots[m, :2]) / robot.wheel_radius
+            F = tyre_forces(robot, qs[m], nus[m], nu_dots[m], Qs[m])
             try:
                 pieces.append((m, stability_track(robot, qs[m], nus[m], nu_dots[m], F)))
             except ValueError:      # airborne at some sample: no track
                 return None
-    finally:
-        robot.detach_payload()
-        if saved is not None:
-            robot.attach_payload(saved)
     return _merge_tracks(pieces, len(qs))
 
 

@@ -79,6 +79,11 @@ def base_doc(**overrides):
         "mount": {"xyz": [0.1, 0.0, 0.4], "rpy": [0.0, 0.0, 0.0]},
         "caster": [{"position": [0.3, 0.0]}, {"position": [-0.3, 0.0]}],
     }
+    return with_overrides(doc, overrides)
+
+
+def with_overrides(doc, overrides):
+    """`doc` with `table__key=value` (one key) or `table=value` (a whole table) set."""
     for key, value in overrides.items():
         table, _, field = key.partition("__")
         if field:

@@ -13,7 +13,7 @@ import opspace
 from opspace.description.scenario import load_scenario
 from opspace.simulate import (PayloadEvent, ScenarioRun, SimulationError,
                               simulate)
-from conftest import DEMO, base_doc, make_robot, two_link_urdf, write_toml
+from conftest import DEMO, base_doc, make_robot, two_link_urdf, with_overrides, write_toml
 
 PICK = DEMO.with_name("pick.toml")
 
@@ -210,13 +210,7 @@ def scenario_doc(**overrides):
     doc = {"simulation": {"name": "t", "robot": "robot.toml", "duration": 3.0},
            "base": [{"kind": "straight", "distance": 1.0, "speed": 0.5, "acceleration": 0.5}],
            "waypoint": [{"t": 2.0, "position": [1.2, 0.1, 0.8]}]}
-    for key, value in overrides.items():
-        table, _, field = key.partition("__")
-        if field:
-            doc[table][field] = value
-        else:
-            doc[table] = value
-    return doc
+    return with_overrides(doc, overrides)
 
 
 def write_scenario(tmp_path, doc):

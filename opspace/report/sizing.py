@@ -331,9 +331,8 @@ def _figures(result, progress):
 def _pose_drawings(result):
     robot = result.robot
     out = []
-    saved = robot.payload
     payload = robot.description.payload
-    try:
+    with robot.kept():
         if payload is not None:
             robot.attach_payload()
         for wp, what in ((result.worst_torque, "peak wheel torque"),
@@ -344,10 +343,6 @@ def _pose_drawings(result):
             if payload is not None:
                 d["payload"] = robot.frame_placement(q, robot.tool_frame).act(np.array(payload.com))
             out.append(d)
-    finally:
-        robot.detach_payload()
-        if saved is not None:
-            robot.attach_payload(saved)
     return out
 
 

@@ -32,9 +32,9 @@ import numpy as np
 
 from .. import trajectory as tr
 from ..description.duty import resolve_pose
-from ..dynamics.joint_space import _friction_batch, inverse_dynamics_batch
+from ..dynamics.joint_space import inverse_dynamics_batch
 from ..errors import ConfigError
-from ..stability import stability_track
+from ..stability import stability_track, tyre_forces
 
 __all__ = ["CycleEvaluation", "build_timeline", "evaluate_cycle"]
 
@@ -147,8 +147,7 @@ def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None):
     F = np.empty((n, 2))
     groups = sorted({(bool(p), float(g)) for p, g in zip(payload, grade)})
     pieces = []
-    saved_payload, saved_slope = robot.payload, robot.slope
-    try:
+    with robot.kept():
         for k, (has_payload, g) in enumerate(groups):
             m = (payload == has_payload) & (grade == g)
             if has_payload:
@@ -157,15 +156,10 @@ def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None):
                 robot.detach_payload()
             robot.set_ground_slope(math.atan(g))
             Q[m] = inverse_dynamics_batch(robot, qs[m], nu[m], nu_dot[m])
-            F[m] = _tyre_force(robot, qs[m], nu[m], nu_dot[m], Q[m])
+            F[m] = tyre_forces(robot, qs[m], nu[m], nu_dot[m], Q[m])
             pieces.append((m, stability_track(robot, qs[m], nu[m], nu_dot[m], F[m])))
             if progress:
                 progress(k + 1, len(groups))
-    finally:
-        robot.detach_payload()
-        if saved_payload is not None:
-            robot.attach_payload(saved_payload)
-        robot.set_ground_slope(saved_slope)
     J_refl = robot.description.drive.reflected_inertia
     tau_out = Q[:, :2] - J_refl * nu_dot[:, :2]
     return CycleEvaluation(
@@ -174,13 +168,6 @@ def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None):
         grade=grade, qs=qs, nu=nu, nu_dot=nu_dot, Q=Q, tau_out=tau_out,
         wheel_speed=nu[:, :2].copy(), wheel_acc=nu_dot[:, :2].copy(), wheel_force=F,
         stability=_merge_tracks(pieces, n))
-
-
-def _tyre_force(robot, qs, nus, nu_dots, Q):
-    """F_x,i = (Q_i − f_i − (J_s + J_m G²) φ̈_i) / r for both drive wheels, (n, 2)."""
-    J = robot.description.wheel.spin_inertia + robot.description.drive.reflected_inertia
-    f = _friction_batch(robot, qs, nus)[:, :2]
-    return (Q[:, :2] - f - J * nu_dots[:, :2]) / robot.wheel_radius
 
 
 def _merge_tracks(pieces, n):

@@ -34,6 +34,7 @@ the exact figures; time v/a and distance v²/(2a).
 
 from __future__ import annotations
 
+import contextlib
 import itertools
 import math
 from dataclasses import dataclass
@@ -43,7 +44,7 @@ import pinocchio as pin
 from scipy.optimize import minimize
 
 from ..dynamics.joint_space import _friction, inverse_dynamics_batch
-from ..stability import ground_wrench, stability_track
+from ..stability import ground_wrench, stability_track, tyre_forces
 
 __all__ = ["Instant", "StopFigures", "WorstPose", "critical_instants", "shortest_stop",
            "worst_poses"]
@@ -137,25 +138,13 @@ def _states(robot, poses, instants):
     return qs, nu, nu_dot
 
 
-class _Context:
-    """Payload attached and gravity set per grade while searching; restores on exit."""
-
-    def __init__(self, robot):
-        self.robot = robot
-
-    def __enter__(self):
-        r = self.robot
-        self.saved = (r.payload, r.slope)
-        if r.description.payload is not None:
-            r.attach_payload()
-        return self
-
-    def __exit__(self, *exc):
-        r = self.robot
-        r.detach_payload()
-        if self.saved[0] is not None:
-            r.attach_payload(self.saved[0])
-        r.set_ground_slope(self.saved[1])
+@contextlib.contextmanager
+def _held(robot):
+    """The rated payload (if described) attached; payload and slope restored after."""
+    with robot.kept():
+        if robot.description.payload is not None:
+            robot.attach_payload()
+        yield robot
 
 
 def _by_grade(instants):
@@ -269,7 +258,7 @@ def worst_poses(robot, instants, *, grid_budget=3000, max_evaluations=400, start
     poses = np.array(list(itertools.product(*_grid_axes(robot, levels))))
     lo = np.where(np.isfinite(robot.lower), robot.lower, -math.pi)
     hi = np.where(np.isfinite(robot.upper), robot.upper, math.pi)
-    with _Context(robot):
+    with _held(robot):
         torque = _peak_torque_batch(robot, poses, instants).max(axis=1)
         if progress:
             progress(1, 4)
@@ -323,13 +312,12 @@ def shortest_stop(robot, speed, q_arm, *, a_max=20.0, tol=1e-4):
     def check(a):
         qs, nu, nu_dot = _states(robot, q_arm[None], [Instant(speed, -a, 0, 0, 0.0, True, 0.0)])
         Q = inverse_dynamics_batch(robot, qs, nu, nu_dot)
-        J = robot.description.wheel.spin_inertia + robot.description.drive.reflected_inertia
-        F = (Q[:, :2] - _friction(robot, qs[0], nu[0])[:2] - J * nu_dot[:, :2]) / robot.wheel_radius
+        F = tyre_forces(robot, qs, nu, nu_dot, Q)
         tr = stability_track(robot, qs, nu, nu_dot, F)
         tip_ok = tr.loads.supported[0] and tr.margin[0] >= 0
         return tip_ok, bool(np.all(tr.traction[0] <= 1.0))
 
-    with _Context(robot):
+    with _held(robot):
         robot.set_ground_slope(0.0)
         lo, hi = 0.0, a_max
         tip_ok, trac_ok = check(hi)

@@ -8,7 +8,7 @@
 
 from .contacts import (GRAVITY, ContactLoads, StoppingLimits, SupportPolygon, normal_loads,
                        stopping_limits, support_polygon, tip_angle, traction_use, zmp)
-from .wrench import GroundWrench, StabilityTrack, ground_wrench, stability_track
+from .wrench import GroundWrench, StabilityTrack, ground_wrench, stability_track, tyre_forces
 
 __all__ = [
     "GRAVITY",
@@ -24,5 +24,6 @@ __all__ = [
     "support_polygon",
     "tip_angle",
     "traction_use",
+    "tyre_forces",
     "zmp",
 ]

@@ -27,7 +27,22 @@ import pinocchio as pin
 
 from .contacts import ContactLoads, normal_loads, support_polygon, traction_use, zmp
 
-__all__ = ["GroundWrench", "StabilityTrack", "ground_wrench", "stability_track"]
+__all__ = ["GroundWrench", "StabilityTrack", "ground_wrench", "stability_track", "tyre_forces"]
+
+
+def tyre_forces(robot, qs, nus, nu_dots, Q):
+    """Longitudinal ground force on each drive wheel's tyre, (n, 2) N.
+
+    The wheel's own balance about its axle:  F_x,i = (Q_i − f_i − (J_s + J_m G²) φ̈_i) / r,
+    with Q_i the wheel torque, f_i its friction and rolling-resistance torque,
+    J_s the wheel's spin inertia and J_m G² the reflected rotor inertia.
+    """
+    from ..dynamics.joint_space import _friction_batch
+
+    d = robot.description
+    J = d.wheel.spin_inertia + d.drive.reflected_inertia
+    f = _friction_batch(robot, qs, nus)[:, :2]
+    return (np.asarray(Q)[:, :2] - f - J * np.asarray(nu_dots)[:, :2]) / robot.wheel_radius
 
 
 @dataclass(frozen=True)
