@@ -306,6 +306,10 @@ class OperationalSpaceController:
                                      pushes the wrong way half the time (a limit cycle)
     effort_limit : (nv,) or None     |Q_i| limits, N·m or N (inf: none); None = robot's
     damping : float or None          singularity threshold ε (see `task_space`)
+    compiled : None | True | False   the command runs in the compiled kernel
+                                     (`opspace._kernel`) when available (None), must
+                                     (True: RuntimeError if not), or never (False: the
+                                     NumPy path); the two agree to round-off (tested)
 
     Raises ConfigError (unknown frame or pose) and ValueError (anything else).
 
@@ -322,7 +326,8 @@ class OperationalSpaceController:
 
     def __init__(self, robot, frame=None, axes="full", *, mode="whole_body", gains=None,
                  posture=None, posture_gains=None, wheel_gain=10.0, friction_feedforward=False,
-                 friction_velocity=0.0, effort_limit=None, damping=DEFAULT_DAMPING):
+                 friction_velocity=0.0, effort_limit=None, damping=DEFAULT_DAMPING,
+                 compiled=None):
         if mode not in _MODES:
             raise ValueError(f"`mode` must be 'whole_body' or 'arm_only', got {mode!r}")
         self.robot, self.mode = robot, mode
@@ -399,6 +404,61 @@ class OperationalSpaceController:
         self._arm_slice = robot.model.nq == robot.model.nv + 1
         self._q_shape, self._nu_shape = (robot.model.nq,), (robot.nv,)
         self._info = None
+        self._kernel = self._make_kernel(compiled)
+
+    def _make_kernel(self, compiled):
+        """The compiled command (`_kernel.Controller`) and its output views, or None."""
+        from . import _compiled
+        robot = self.robot
+        # the kernel's posture error is q₀ − q[6:] (no continuous arm joint)
+        usable = _compiled.available() and (self.posture is None or self._arm_slice)
+        if compiled and not usable:
+            raise RuntimeError("the compiled command is not available (opspace._kernel not "
+                               "built, or an arm joint is continuous): use compiled=None")
+        if compiled is False or not usable:
+            return None
+        from ._kernel import Controller
+        from .dynamics.joint_space import _rolling_terms
+        terms = _rolling_terms(robot)
+        rows = np.arange(6)[self._rows].astype(float)
+        flags = np.array([self._fid, self._whole_body, self._angular, self.posture is not None,
+                          self.friction_feedforward, robot.rolling_resistance != 0.0], float)
+        scalars = np.array([robot.wheel_radius, robot.half_track, self.wheel_gain,
+                            self.friction_velocity, robot.rolling_resistance,
+                            self.damping ** 2])
+        ctrl = Controller(np.asarray(robot.S, float), self._GG, np.asarray(self._q0, float),
+                          np.asarray(robot.coulomb, float), np.asarray(robot.viscous, float),
+                          self.effort_limit, np.asarray(terms.A_pinv, float),
+                          np.array(terms.caster_rows, float).reshape(-1, 4), rows, flags,
+                          scalars)
+        # the flat output buffer and its views (layout: _kernel.cpp, Controller::command)
+        nv, k = robot.nv, self.k
+        sizes = {"Q_sent": nv, "Q": nv, "LB": k * (k + 1), "Jdot_nu": k, "g": k + nv,
+                 "M": nv * nv, "h": nv, "z": 6 + 2 * k, "J": k * nv}
+        out = np.zeros(sum(sizes.values()))
+        views, i = {}, 0
+        for name, n in sizes.items():
+            views[name] = out[i:i + n]
+            i += n
+        views["LB"] = views["LB"].reshape(k, k + 1)
+        views["M"] = views["M"].reshape(nv, nv)
+        views["J"] = views["J"].reshape(k, nv)
+        g = views["g"]
+        info = (views["Q_sent"], views["Q"], views["LB"], views["Jdot_nu"], g[:k], g[k:], False,
+                views["J"], views["z"])
+        # the task error: a view of z when the rows are contiguous, else taken per call
+        error = views["z"][:6][self._rows] if isinstance(self._rows, slice) else None
+        return (ctrl.command, robot.model, self._data, out, info, (views["M"], views["h"]),
+                error)
+
+    @staticmethod
+    def pack(target, plan=None):
+        """The (28,) vector the compiled command reads: [p_d, R_d (row-major),
+        v_d, a_d, plan v, ω, a, α] (R_d = I when the target has none)."""
+        plan = _STILL if plan is None else plan
+        R = np.eye(3) if target.rotation is None else target.rotation
+        return np.concatenate((target.position, R.ravel(), target.velocity,
+                               target.acceleration, (plan.v, plan.omega, plan.a, plan.alpha)))
 
     @staticmethod
     def _gains(name, gains, size, stiffness):
@@ -442,10 +502,34 @@ class OperationalSpaceController:
             base = _STILL
         elif not isinstance(base, BasePlan):
             raise ValueError(f"`base` must be a BasePlan or None, got {type(base).__name__}")
-        return self._command(q, nu, target, base)
+        return self._command(q, nu, target, base).copy()
 
     def _command(self, q, nu, target, plan):
-        """The unvalidated fast path of `command` (a simulation's inner loop).
+        """The unvalidated fast path of `command`: compiled when available."""
+        if self._kernel is not None:
+            return self._command_packed(q, nu, self.pack(target, plan))
+        return self._command_numpy(q, nu, target, plan)
+
+    def _command_packed(self, q, nu, x):
+        """The compiled command at (q, ν) for a packed target x (`pack`); a
+        simulation's inner loop.  The returned Q is a view of a buffer that the
+        next call overwrites.  Near a singularity (or without the kernel) the
+        NumPy path runs instead."""
+        kernel = self._kernel
+        if kernel is None or kernel[0](kernel[1], kernel[2], q, nu, x, kernel[3]):
+            return self._command_numpy(q, nu, *self._unpack(x))
+        self._info, self._Mh, self._error = kernel[4], kernel[5], kernel[6]
+        if self._error is None:
+            self._error = kernel[4][8][:6][self._rows]
+        return kernel[4][0]
+
+    def _unpack(self, x):
+        target = Target.trusted(x[:3], x[3:12].reshape(3, 3) if self._angular else None,
+                                x[12:18], x[18:24])
+        return target, BasePlan(*x[24:28].tolist())
+
+    def _command_numpy(self, q, nu, target, plan):
+        """The command in NumPy (the reference of the compiled path).
 
         With h' = h − M ν̇₀ (whole body; arm only: h_a + M_aw ν̇_w* − M_a ν̇₀), two
         dposv calls give Y = M⁻¹ [Jᵀ | h'] and Λ [I | b'] (`_solve_task`), b' =
@@ -535,8 +619,9 @@ class OperationalSpaceController:
                 Q[1] += f1
         Q_sent = np.minimum(Q, self.effort_limit)
         np.maximum(Q_sent, self._neg_limit, out=Q_sent)
-        self._info = (Q_sent, Q, LB, Jdot_nu, ga, nd0, damped)
+        self._info = (Q_sent, Q, LB, Jdot_nu, ga, nd0, damped, J, z)
         self._Mh = (M, h)      # the reduced M and c + g at this (q, ν), for a simulator to reuse
+        self._error = z[:6][self._rows]
         return Q_sent
 
     def _posture_error(self, q):
@@ -555,19 +640,20 @@ class OperationalSpaceController:
     def last_demand(self):
         """(Q_demand, task error) of the last call, cheaply (arrays owned by the
         controller until the next call); see `info` for everything."""
-        return self._info[1], self._z[:6][self._rows]
+        return self._info[1], self._error
 
     @property
     def info(self):
         """`CommandInfo` of the last `command` call (None before the first)."""
         if self._info is None:
             return None
-        Q, Q_demand, LB, Jdot_nu, ga, nd0, damped = self._info
-        k, z, J = self.k, self._z, self._J     # the buffers hold the last call's values
+        Q, Q_demand, LB, Jdot_nu, ga, nd0, damped, J, z = self._info
+        k = self.k                              # the buffers hold the last call's values
         a_star = ga + Jdot_nu
         J_nd0 = J.dot(nd0) if self._whole_body else -J[:, 2:].dot(nd0[2:])
         F = LB[:, k] + LB[:, :k].dot(J_nd0)       # Λ b' + Λ J ν̇₀
-        return CommandInfo(Q=Q, Q_demand=Q_demand, saturated=np.abs(Q_demand) > self.effort_limit,
+        return CommandInfo(Q=Q.copy(), Q_demand=Q_demand.copy(),
+                           saturated=np.abs(Q_demand) > self.effort_limit,
                            error=z[:6][self._rows].copy(), velocity_error=z[6:6 + k].copy(),
                            a_star=a_star, F=F, damped=bool(damped))
 

@@ -269,7 +269,8 @@ def _apply_event(event, robot, plant, controller_robot, q, nu):
 
 def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_period=None,
              integrator="rk4", friction=True, locked=None, events=(), record_every=1,
-             blowup=10.0, stability=True, controller_robot=None, progress=None):
+             blowup=10.0, stability=True, controller_robot=None, progress=None,
+             compiled=None):
     """Integrate the robot's reduced dynamics under a sampled controller.
 
     Parameters
@@ -292,6 +293,11 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     controller_robot : the controller's own MobileManipulator, if it has one
         (events give it the payload `estimate`)
     progress : callable(done_steps, total_steps) or None
+    compiled : None (default) | True | False
+        The step runs in the compiled kernel (`opspace._kernel`, one C++ call
+        per step) when it is available (None) or must be (True: RuntimeError
+        if it is not); False: the NumPy reference loop (same equations; the
+        tests hold the two to round-off).
 
     Returns
     -------
@@ -324,6 +330,14 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     any_locked = bool(locked.any())
     events = sorted(events, key=lambda e: e.t)
     plant = _Plant(robot, locked, friction)
+    kernel = None
+    if compiled is None or compiled:
+        from ._compiled import kernel_plant
+        kernel = kernel_plant(robot, locked, friction)
+        if kernel is None and compiled:
+            raise RuntimeError("the compiled simulation kernel (opspace._kernel) is not "
+                               "available: reinstall opspace with a C++ compiler on PATH")
+    scratch = np.zeros(robot.nv)
     model, S = robot.model, robot.S
     S_h = (S * (0.5 * dt), S * dt, S * (dt / 6.0))     # S pre-scaled for the RK4 stages
     limit = robot.effort_limit
@@ -360,18 +374,33 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
                             raise _Stop(f"effort of {robot.coordinate_names[i]} demanded "
                                         f"{Qd[i]:.4g}, more than {blowup:g} x its limit "
                                         f"{limit[i]:g}")
-                plant.start_step(q)
-                Mh = getattr(info, "Mh", None) if step % n_ctrl == 0 else None
-                nu_dot = plant.accel(q, nu, Q) if Mh is None else plant.accel_from(*Mh, nu, Q)
-                if step % record_every == 0:
-                    rec.add(t, q, nu, nu_dot, Q, info, robot.payload is not None)
-                if step == n_steps:
-                    break
-                if integrator == "rk4":
-                    q, nu = _rk4(model, plant, S_h, q, nu, nu_dot, Q, h)
+                # the state before the step is recorded; ν̇ at it lands in `out`
+                out = (rec.add(t, q, nu, Q, info, robot.payload is not None)
+                       if step % record_every == 0 else scratch)
+                if kernel is not None:         # one compiled call: q, ν advance in place
+                    if step == n_steps:
+                        code = kernel.accel(model, plant.data, q, nu, Q, out)
+                    elif integrator == "rk4":
+                        code = kernel.rk4(model, plant.data, q, nu, Q, h, out)
+                    else:
+                        code = kernel.euler(model, plant.data, q, nu, Q, h, out)
+                    if code:
+                        raise ModelError("mass matrix not positive definite")
+                    if step == n_steps:
+                        break
                 else:
-                    nu = nu + h * nu_dot
-                    q = pin.integrate(model, q, S.dot(nu) * h)
+                    plant.start_step(q)
+                    Mh = getattr(info, "Mh", None) if step % n_ctrl == 0 else None
+                    nu_dot = (plant.accel(q, nu, Q) if Mh is None
+                              else plant.accel_from(*Mh, nu, Q))
+                    out[:] = nu_dot
+                    if step == n_steps:
+                        break
+                    if integrator == "rk4":
+                        q, nu = _rk4(model, plant, S_h, q, nu, nu_dot, Q, h)
+                    else:
+                        nu = nu + h * nu_dot
+                        q = pin.integrate(model, q, S.dot(nu) * h)
                 if not (math.isfinite(nu.dot(nu)) and math.isfinite(q.dot(q))):
                     raise _Stop("the state became non-finite (NaN or inf)")
                 if progress and step % 500 == 0:
@@ -431,9 +460,10 @@ class _Recorder:
         self.error = None
         self.i = 0
 
-    def add(self, t, q, nu, nu_dot, Q, info, has_payload):
+    def add(self, t, q, nu, Q, info, has_payload):
+        """Record a sample; returns its ν̇ row, for the caller to fill."""
         i = self.i
-        self.t[i], self.q[i], self.nu[i], self.nu_dot[i], self.Q[i] = t, q, nu, nu_dot, Q
+        self.t[i], self.q[i], self.nu[i], self.Q[i] = t, q, nu, Q
         self.payload[i] = has_payload
         if info is None:
             self.Qd[i] = Q
@@ -447,6 +477,7 @@ class _Recorder:
             if tgt is not None:
                 self.target[i] = tgt
         self.i += 1
+        return self.nu_dot[i]
 
     def result(self, robot, status, message, dt, control_period, integrator, *, stability,
                end_payload):
@@ -509,9 +540,11 @@ class _StepInfo:
 
 class ScenarioRun:
     """A scenario made ready to run: robots, plans sampled at the control rate,
-    controller, events.  `run()` integrates it; `plans` are kept for figures."""
+    controller, events.  `run()` integrates it; `plans` are kept for figures.
+    `compiled` (None, True, False): the compiled kernel for the controller and
+    the plant, as in `simulate`."""
 
-    def __init__(self, scenario, *, payload_mass_error=None):
+    def __init__(self, scenario, *, payload_mass_error=None, compiled=None):
         from . import trajectory as tr
         from .control import BasePlan, Gains, OperationalSpaceController, Target
         from .description.duty import resolve_pose
@@ -570,7 +603,8 @@ class ScenarioRun:
             posture=c["posture"] if c["posture"] is not None else arm0,
             posture_gains=Gains.from_stiffness(c["posture_stiffness"], 1.0, size=robot.n_arm),
             wheel_gain=c["wheel_gain"], friction_feedforward=c["friction_feedforward"],
-            friction_velocity=c["friction_velocity"])
+            friction_velocity=c["friction_velocity"], compiled=compiled)
+        self.compiled = compiled
         # every control sample's target and plan, built once (validated paths)
         tool, b = self.tool, self.base
         vel = np.concatenate([tool.v, tool.w], axis=1)
@@ -579,6 +613,9 @@ class ScenarioRun:
                          for i in range(len(self.t_ctrl))]
         self._plans = [BasePlan(*vals) for vals in zip(b["v"].tolist(), b["omega"].tolist(),
                                                        b["a"].tolist(), b["alpha"].tolist())]
+        # the same, packed for the compiled command (`OperationalSpaceController.pack`)
+        self._packed = np.column_stack([tool.p, tool.R.reshape(-1, 9), vel, acc, b["v"],
+                                        b["omega"], b["a"], b["alpha"]])
         self.events = []
         if sc.pick is not None:
             payload = robot.description.payload if sc.payload == "rated" else sc.payload
@@ -597,20 +634,25 @@ class ScenarioRun:
         from the precomputed, validated paths, so the unchecked fast paths are
         used (`Target.trusted`, `OperationalSpaceController._command`)."""
         i = min(int(round(t / self.scenario.control_period)), len(self.t_ctrl) - 1)
-        target, plan = self._targets[i], self._plans[i]
         c = self.controller
-        Q = c._command(q, nu, target, plan)
+        if c._kernel is not None:
+            Q = c._command_packed(q, nu, self._packed[i])
+        else:
+            Q = c._command_numpy(q, nu, self._targets[i], self._plans[i])
         Q_demand, error = c.last_demand()
-        # with a perfect model the plant's first RK4 stage reuses the controller's M, c + g
+        # with a perfect model the NumPy plant's first RK4 stage reuses the controller's M, c + g
         Mh = c._Mh if self.controller_robot is self.robot else None
-        return Q, _StepInfo(Q_demand, np.abs(Q_demand) > c.effort_limit, error, target.position, Mh)
+        return Q, _StepInfo(Q_demand, np.abs(Q_demand) > c.effort_limit, error,
+                            self._packed[i, :3], Mh)
 
-    def run(self, *, integrator=None, progress=None, stability=True):
+    def run(self, *, integrator=None, progress=None, stability=True, compiled=None):
+        """SimulationResult of the scenario (`compiled`: see `simulate`)."""
         sc = self.scenario
         return simulate(self.robot, self.control, duration=sc.duration, q0=self.q0, dt=sc.step,
                         control_period=sc.control_period, integrator=integrator or sc.integrator,
                         friction=sc.friction, events=self.events, stability=stability,
-                        controller_robot=self.controller_robot, progress=progress)
+                        controller_robot=self.controller_robot, progress=progress,
+                        compiled=self.compiled if compiled is None else compiled)
 
 
 def _fit(x, n, *, hold):

@@ -18,23 +18,32 @@ from conftest import DEMO, base_doc, make_robot, two_link_urdf, with_overrides, 
 PICK = DEMO.with_name("pick.toml")
 
 
+@pytest.fixture(params=[True, False], ids=["compiled", "numpy"])
+def compiled(request):
+    """Both loops: the compiled kernel and the NumPy reference (`simulate(compiled=)`)."""
+    from opspace import _compiled
+    if request.param and not _compiled.available():
+        pytest.skip("the compiled kernel is not built (CI requires it: test_kernel.py)")
+    return request.param
+
+
 def energy(robot, q, nu):
     return opspace.kinetic_energy(robot, q, nu) + opspace.potential_energy(robot, q)
 
 
-def test_passive_energy_is_conserved(demo):
+def test_passive_energy_is_conserved(demo, compiled):
     # No friction, no input: the total energy is a first integral.  RK4's global
     # error is O(h⁴) (Hairer, Nørsett & Wanner, Solving ODEs I, 1993, II.3), here
     # h = 1 ms over 5 s; the issue's bound is 1e-6 relative.
     q0 = demo.configuration(arm="carry")
     nu0 = np.array([2.0, 1.0, 0.05, 0.5, -0.3, 0.4, 0.2, -0.5, 0.8])
     res = simulate(demo, None, duration=5.0, q0=q0, nu0=nu0, dt=1e-3, friction=False,
-                   stability=False)
+                   stability=False, compiled=compiled)
     E = np.array([energy(demo, q, nu) for q, nu in zip(res.q[::50], res.nu[::50])])
     assert np.max(np.abs(E - E[0])) / abs(E[0]) < 1e-6
 
 
-def test_work_energy_balance_with_friction(demo):
+def test_work_energy_balance_with_friction(demo, compiled):
     # Work-energy theorem: ∫ Qᵀν dt − ∫ fᵀν dt = ΔE (f: Coulomb, viscous, rolling
     # resistance).  Q is held over each step (zero-order hold), so the input work
     # is Σ Q_k ∫ν dt with the trapezoid rule for ∫ν; the losses by the trapezoid
@@ -47,7 +56,8 @@ def test_work_energy_balance_with_friction(demo):
     def control(t, q, nu):
         return g0 + amp * np.sin(2 * math.pi * np.arange(1, 10) * 0.3 * t), None
 
-    res = simulate(demo, control, duration=1.5, q0=q0, nu0=nu0, dt=2.5e-4, stability=False)
+    res = simulate(demo, control, duration=1.5, q0=q0, nu0=nu0, dt=2.5e-4, stability=False,
+                   compiled=compiled)
     f = np.array([opspace.friction(demo, q, nu) for q, nu in zip(res.q, res.nu)])
     dt = np.diff(res.t)
     P_in = np.sum(res.Q[:-1] * (res.nu[:-1] + res.nu[1:]) / 2, axis=1)
@@ -75,7 +85,7 @@ def mujoco_arm(robot):
     return mujoco, m
 
 
-def test_arm_free_fall_matches_mujoco(demo):
+def test_arm_free_fall_matches_mujoco(demo, compiled):
     # Base locked (wheels held): the arm falls freely from a pose; MuJoCo's RK4
     # at 0.1 ms on the same URDF is the independent reference (issue: 1e-4 rad
     # over 1 s).  MuJoCo's joint order equals the URDF chain order here.
@@ -87,7 +97,7 @@ def test_arm_free_fall_matches_mujoco(demo):
     locked = np.zeros(demo.nv, bool)
     locked[:2] = True
     res = simulate(demo, None, duration=1.0, q0=q0, dt=1e-3, friction=False, locked=locked,
-                   stability=False)
+                   stability=False, compiled=compiled)
     ours = np.array([demo.arm_positions(q) for q in res.q[::100]])
     ref = [d.qpos.copy()]
     for _ in range(10):
@@ -98,7 +108,7 @@ def test_arm_free_fall_matches_mujoco(demo):
     assert np.abs(ours[-1] - ours[0]).max() > 0.5      # it did move
 
 
-def test_straight_run_wheel_torque_closed_form(tmp_path):
+def test_straight_run_wheel_torque_closed_form(tmp_path, compiled):
     # Straight run, arm held: the wheel torques during the constant-acceleration
     # phase are M_w φ̈ (φ̈ = a / r on both wheels, M_w the locked-arm 2x2 wheel
     # block; see DriveInertia) plus the rolling resistance C_rr m g r / 2 each
@@ -112,7 +122,7 @@ def test_straight_run_wheel_torque_closed_form(tmp_path):
     q0 = robot.configuration(arm=[0.4, -0.8])
     X0 = robot.frame_placement(q0, robot.tool_frame_id)
     ctrl = OperationalSpaceController(robot, axes="linear", mode="arm_only", wheel_gain=20.0,
-                                      friction_feedforward=True)
+                                      friction_feedforward=True, compiled=compiled)
 
     def control(t, q, nu):
         s, v, a, _ = prof.sample(np.array([t]))
@@ -120,7 +130,8 @@ def test_straight_run_wheel_torque_closed_form(tmp_path):
         Q = ctrl.command(q, nu, target, base=BasePlan(v[0], 0.0, a[0], 0.0))
         return Q, ctrl.info
 
-    res = simulate(robot, control, duration=1.8, q0=q0, dt=1e-3, stability=False)
+    res = simulate(robot, control, duration=1.8, q0=q0, dt=1e-3, stability=False,
+                   compiled=compiled)
     acc = (res.t > 0.5) & (res.t < 1.9)
     Mw = opspace.drive_inertia(robot, q0).M_w
     m, r = robot.total_mass(), 0.1
@@ -128,13 +139,14 @@ def test_straight_run_wheel_torque_closed_form(tmp_path):
     np.testing.assert_allclose(res.Q[acc, :2], np.tile(expected, (acc.sum(), 1)), rtol=2e-3)
 
 
-def test_pick_keeps_generalized_momentum(demo):
+def test_pick_keeps_generalized_momentum(demo, compiled):
     # Plastic catch of a payload at rest (module docstring): M⁺ ν⁺ = M⁻ ν⁻.
     q0 = demo.configuration(arm="carry")
     nu0 = np.array([1.0, 1.2, 0.0, 0.3, 0.1, 0.0, 0.0, 0.0, 0.0])
     payload = demo.description.payload
     res = simulate(demo, None, duration=0.002, q0=q0, nu0=nu0, dt=1e-3, friction=False,
-                   events=[PayloadEvent(0.001, "pick", payload)], stability=False)
+                   events=[PayloadEvent(0.001, "pick", payload)], stability=False,
+                   compiled=compiled)
     M_before = opspace.joint_space(demo, res.q[1], np.zeros(demo.nv)).M
     demo.attach_payload(payload)
     try:

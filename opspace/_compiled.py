@@ -1,0 +1,59 @@
+"""The compiled simulation kernel, `opspace._kernel`, when it can be used.
+
+`opspace/_kernel.cpp` is the simulation's inner loop (the reduced forward
+dynamics, the RK4 and semi-implicit Euler steps, friction and rolling
+resistance) written against Pinocchio's C++ API; `opspace.simulate` keeps the
+same loop in NumPy as its reference, and the tests hold the two to round-off.
+The kernel is built when the package is installed (hatch_build.py) if a C++
+compiler is found; it is used only when it was built against the Pinocchio
+version that is imported now (otherwise its binary interface may differ).
+"""
+
+from __future__ import annotations
+
+import functools
+import warnings
+
+import numpy as np
+import pinocchio as pin
+
+__all__ = ["available", "kernel_plant"]
+
+
+@functools.cache
+def _module():
+    try:
+        from . import _kernel
+    except ImportError:
+        return None
+    if _kernel.PINOCCHIO_VERSION != pin.__version__:
+        warnings.warn(f"opspace's compiled simulation kernel was built for Pinocchio "
+                      f"{_kernel.PINOCCHIO_VERSION}, but {pin.__version__} is imported: "
+                      "the NumPy loop is used instead (reinstall opspace to rebuild it)",
+                      RuntimeWarning, stacklevel=3)
+        return None
+    return _kernel
+
+
+def available():
+    """True when the compiled kernel is built and matches the imported Pinocchio."""
+    return _module() is not None
+
+
+def kernel_plant(robot, locked, friction):
+    """A compiled `Plant` of the robot (see _kernel.cpp), or None if unavailable.
+
+    locked (nv,) bool: coordinates held still; friction: Coulomb, viscous and
+    rolling resistance on/off.
+    """
+    k = _module()
+    if k is None:
+        return None
+    from .dynamics.joint_space import _rolling_terms
+    terms = _rolling_terms(robot)
+    casters = np.array(terms.caster_rows, dtype=float).reshape(-1, 4)
+    free = (~np.asarray(locked, bool)).astype(float)
+    return k.Plant(np.asarray(robot.S, float), free, np.asarray(robot.coulomb, float),
+                   np.asarray(robot.viscous, float), bool(friction),
+                   np.asarray(terms.A_pinv, float), casters, float(robot.rolling_resistance),
+                   float(robot.wheel_radius))

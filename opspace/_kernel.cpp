@@ -1,0 +1,424 @@
+// opspace._kernel: the simulation's inner loop, compiled.
+//
+// The same equations as the Python reference in opspace/simulate.py
+// (`_Plant.accel`, `_rk4`, the semi-implicit Euler step), which the tests
+// compare this with to round-off; see that module's docstring for the model:
+//
+//   M ν̇ = Q − h − f,   M = Sᵀ M_full(q) S,   h = Sᵀ nle(q, S ν)
+//   f = f_C sign(ν) + f_v ν + f_rr(ν)     (f_rr: rolling resistance with the
+//                                          static loads frozen at the step start)
+//
+// S is the constant reduction map of the differential-drive base (the planar
+// root's velocity is in the chassis frame).  Locked coordinates keep ν = 0 and
+// the free block obeys M_ff ν̇_f = (Q − h − f)_f.  One call advances one step.
+//
+// Built by hatch_build.py against the Pinocchio, eigenpy and Boost.Python of
+// the `pin` wheel; opspace/_compiled.py checks the versions match at import.
+
+#include <pinocchio/algorithm/center-of-mass.hpp>
+#include <pinocchio/algorithm/crba.hpp>
+#include <pinocchio/algorithm/frames.hpp>
+#include <pinocchio/algorithm/joint-configuration.hpp>
+#include <pinocchio/algorithm/kinematics.hpp>
+#include <pinocchio/algorithm/rnea.hpp>
+#include <pinocchio/spatial.hpp>
+#include <pinocchio/multibody.hpp>
+
+#include <eigenpy/eigenpy.hpp>
+#include <boost/python.hpp>
+
+#include <cmath>
+#include <vector>
+
+namespace bp = boost::python;
+using Model = pinocchio::Model;
+using Data = pinocchio::Data;
+using Eigen::MatrixXd;
+using Eigen::VectorXd;
+using RefV = Eigen::Ref<VectorXd>;
+using CRefV = const Eigen::Ref<const VectorXd>&;
+
+namespace {
+
+inline double sign(double x) { return x > 0.0 ? 1.0 : (x < 0.0 ? -1.0 : 0.0); }
+
+// Rolling resistance with the static contact loads of one configuration
+// (`RollingLoads` in opspace/dynamics/joint_space.py): N = W A [1, x_p, y_p]
+// (x_p, y_p: the COM's ground projection in the chassis frame, N ≥ 0), wheel
+// torques C_rr N_i r sign(φ̇_i), and each caster's force C_rr N_c against its
+// ground velocity (J_x ν, J_y ν), which only the wheel rates move.
+class Rolling {
+ public:
+  // A (2 + n_casters, 3); casters (n_casters, 4) = (J_x0, J_x1, J_y0, J_y1)
+  Rolling(const MatrixXd& A, const MatrixXd& casters, double c_rr, double r)
+      : A_(A), casters_(casters), c_rr_(c_rr), r_(r),
+        cN_(static_cast<size_t>(casters.rows()), 0.0) {}
+
+  // the loads at q (forward kinematics and the COM into data)
+  void load(const Model& model, Data& data, CRefV q) {
+    const Eigen::Vector3d com = pinocchio::centerOfMass(model, data, q, false);
+    const double dx = com[0] - q[0], dy = com[1] - q[1], c = q[2], s = q[3];
+    const double xp = c * dx + s * dy, yp = c * dy - s * dx;
+    const double W = data.mass[0] * -model.gravity.linear()[2];
+    auto N = [&](Eigen::Index i) {
+      return std::max(W * (A_(i, 0) + A_(i, 1) * xp + A_(i, 2) * yp), 0.0);
+    };
+    k0_ = c_rr_ * r_ * N(0);
+    k1_ = c_rr_ * r_ * N(1);
+    for (Eigen::Index i = 0; i < casters_.rows(); ++i) cN_[size_t(i)] = c_rr_ * N(2 + i);
+  }
+
+  // (f_r, f_l) on the wheel coordinates (left-hand side) at wheel rates w0, w1
+  void efforts(double w0, double w1, double& f0, double& f1) const {
+    f0 = k0_ * sign(w0);
+    f1 = k1_ * sign(w1);
+    for (Eigen::Index i = 0; i < casters_.rows(); ++i) {
+      const double cN = cN_[size_t(i)];
+      if (!(cN > 0.0)) continue;
+      const double jx0 = casters_(i, 0), jx1 = casters_(i, 1), jy0 = casters_(i, 2),
+                   jy1 = casters_(i, 3);
+      const double vx = jx0 * w0 + jx1 * w1, vy = jy0 * w0 + jy1 * w1;
+      const double speed = std::hypot(vx, vy);
+      if (speed > 0.0) {
+        const double k = cN / speed;
+        f0 += k * (vx * jx0 + vy * jy0);
+        f1 += k * (vx * jx1 + vy * jy1);
+      }
+    }
+  }
+
+ private:
+  MatrixXd A_, casters_;
+  double c_rr_, r_, k0_ = 0.0, k1_ = 0.0;
+  std::vector<double> cN_;
+};
+
+// Forward dynamics of the reduced coordinates and the RK4 / Euler steps.
+class Plant {
+ public:
+  // S (nv_full, nv); free (nv,) 1 = free, 0 = locked; coulomb, viscous (nv,);
+  // rolling: A (2 + n_casters, 3) the static-load map N = W A [1, x_p, y_p],
+  // casters (n_casters, 4) = (J_x0, J_x1, J_y0, J_y1) on the wheel columns,
+  // c_rr (1), r wheel radius m.  friction = false drops f altogether.
+  Plant(const MatrixXd& S, const VectorXd& free, const VectorXd& coulomb,
+        const VectorXd& viscous, bool friction, const MatrixXd& A, const MatrixXd& casters,
+        double c_rr, double r)
+      : S_(S), St_(S.transpose()), coulomb_(coulomb), viscous_(viscous),
+        friction_(friction), rolling_model_(A, casters, c_rr, r) {
+    const Eigen::Index nv = S.cols();
+    for (Eigen::Index i = 0; i < nv; ++i)
+      if (free[i] != 0.0) free_.push_back(static_cast<int>(i));
+    all_free_ = static_cast<Eigen::Index>(free_.size()) == nv;
+    rolling_ = friction && c_rr > 0.0;
+    v_.resize(S.rows());
+    dq_.resize(S.rows());
+    rhs_.resize(nv);
+    Mr_.resize(nv, nv);
+    Mfull_.resize(S.rows(), S.rows());
+    a2_.resize(nv);
+    a3_.resize(nv);
+    a4_.resize(nv);
+    nu2_.resize(nv);
+    nu3_.resize(nv);
+    nu4_.resize(nv);
+  }
+
+  // Static contact loads at q, frozen for one step (RollingLoads in Python).
+  void start(const Model& model, Data& data, CRefV q) {
+    if (rolling_) rolling_model_.load(model, data, q);
+  }
+
+  // ν̇ into out at (q, ν) under Q; false when M (its free block) is not PD.
+  bool accel(const Model& model, Data& data, CRefV q, CRefV nu, CRefV Q, RefV out) {
+    v_.noalias() = S_ * nu;
+    pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);
+    Mfull_ = data.M.selfadjointView<Eigen::Upper>();
+    Mr_.noalias() = St_ * Mfull_ * S_;
+    pinocchio::nonLinearEffects(model, data, q, v_);
+    rhs_.noalias() = Q - St_ * data.nle;
+    if (friction_) {
+      for (Eigen::Index i = 0; i < rhs_.size(); ++i)
+        rhs_[i] -= coulomb_[i] * sign(nu[i]) + viscous_[i] * nu[i];
+      if (rolling_) {
+        double f0, f1;
+        rolling_model_.efforts(nu[0], nu[1], f0, f1);
+        rhs_[0] -= f0;
+        rhs_[1] -= f1;
+      }
+    }
+    if (all_free_) {
+      llt_.compute(Mr_);
+      if (llt_.info() != Eigen::Success) return false;
+      out = llt_.solve(rhs_);
+      return true;
+    }
+    const Eigen::Index n = static_cast<Eigen::Index>(free_.size());
+    MatrixXd Mff(n, n);
+    VectorXd rf(n);
+    for (Eigen::Index i = 0; i < n; ++i) {
+      rf[i] = rhs_[free_[size_t(i)]];
+      for (Eigen::Index j = 0; j < n; ++j) Mff(i, j) = Mr_(free_[size_t(i)], free_[size_t(j)]);
+    }
+    llt_.compute(Mff);
+    if (llt_.info() != Eigen::Success) return false;
+    const VectorXd x = llt_.solve(rf);
+    out.setZero();
+    for (Eigen::Index i = 0; i < n; ++i) out[free_[size_t(i)]] = x[i];
+    return true;
+  }
+
+  // One classical RK4 step (as `_rk4`): q, ν advanced in place, ν̇ at the
+  // start written to nu_dot.  Returns 0, or 1 when M is not PD.
+  int rk4(const Model& model, Data& data, RefV q, RefV nu, CRefV Q, double h, RefV nu_dot) {
+    start(model, data, q);
+    if (!accel(model, data, q, nu, Q, nu_dot)) return 1;
+    const double h2 = 0.5 * h;
+    nu2_ = nu + h2 * nu_dot;
+    if (!stage(model, data, q, nu, h2, nu2_, Q, a2_)) return 1;
+    nu3_ = nu + h2 * a2_;
+    if (!stage(model, data, q, nu2_, h2, nu3_, Q, a3_)) return 1;
+    nu4_ = nu + h * a3_;
+    if (!stage(model, data, q, nu3_, h, nu4_, Q, a4_)) return 1;
+    // q⁺ = q ⊕ h S (ν₁ + 2ν₂ + 2ν₃ + ν₄)/6,  ν⁺ = ν + h (ν̇₁ + 2ν̇₂ + 2ν̇₃ + ν̇₄)/6
+    dq_.noalias() = S_ * ((h / 6.0) * (nu + 2.0 * (nu2_ + nu3_) + nu4_));
+    integrate(model, q);
+    nu += (h / 6.0) * (nu_dot + 2.0 * (a2_ + a3_) + a4_);
+    return 0;
+  }
+
+  // Semi-implicit Euler: ν⁺ = ν + h ν̇(q, ν), q⁺ = q ⊕ h S ν⁺.
+  int euler(const Model& model, Data& data, RefV q, RefV nu, CRefV Q, double h, RefV nu_dot) {
+    start(model, data, q);
+    if (!accel(model, data, q, nu, Q, nu_dot)) return 1;
+    nu += h * nu_dot;
+    dq_.noalias() = S_ * (h * nu);
+    integrate(model, q);
+    return 0;
+  }
+
+  // ν̇ alone (the last recorded sample), with the loads of q.
+  int accel_only(const Model& model, Data& data, CRefV q, CRefV nu, CRefV Q, RefV nu_dot) {
+    start(model, data, q);
+    return accel(model, data, q, nu, Q, nu_dot) ? 0 : 1;
+  }
+
+ private:
+  // the stage acceleration at q ⊕ c h S ν_prev with rates ν_i
+  bool stage(const Model& model, Data& data, CRefV q, CRefV nu_prev, double ch, CRefV nu_i,
+             CRefV Q, RefV out) {
+    dq_.noalias() = S_ * (ch * nu_prev);
+    qs_.resize(q.size());
+    pinocchio::integrate(model, q, dq_, qs_);
+    return accel(model, data, qs_, nu_i, Q, out);
+  }
+
+  void integrate(const Model& model, RefV q) {
+    qs_.resize(q.size());
+    pinocchio::integrate(model, q, dq_, qs_);
+    q = qs_;
+  }
+
+  MatrixXd S_, St_;
+  VectorXd coulomb_, viscous_;
+  bool friction_, rolling_, all_free_;
+  std::vector<int> free_;
+  Rolling rolling_model_;
+  VectorXd v_, dq_, rhs_, qs_, a2_, a3_, a4_, nu2_, nu3_, nu4_;
+  MatrixXd Mr_, Mfull_;
+  Eigen::LLT<MatrixXd> llt_;
+};
+
+// The task-space computed-torque command (OperationalSpaceController._command).
+class Controller {
+ public:
+  // S (nv_full, nv); GG (k + nv, 6 + 2k + nv + n_arm) = diag(G, G0); q0 (n_arm,)
+  // posture; coulomb, viscous, limit (nv,); A, casters, as for Plant; rows (k,)
+  // task rows of [linear; angular]; flags = (frame id, whole body, angular,
+  // posture, friction feed-forward, rolling); scalars = (wheel radius r, half
+  // track b, wheel gain K_w, friction velocity v_s, c_rr, ε²).
+  Controller(const MatrixXd& S, const MatrixXd& GG, const VectorXd& q0, const VectorXd& coulomb,
+             const VectorXd& viscous, const VectorXd& limit, const MatrixXd& A,
+             const MatrixXd& casters, const VectorXd& rows, const VectorXd& flags,
+             const VectorXd& scalars)
+      : S_(S), St_(S.transpose()), GG_(GG), q0_(q0), coulomb_(coulomb), viscous_(viscous),
+        limit_(limit), rolling_model_(A, casters, scalars[4], scalars[0]) {
+    for (Eigen::Index i = 0; i < rows.size(); ++i) rows_.push_back(static_cast<int>(rows[i]));
+    fid_ = static_cast<pinocchio::FrameIndex>(flags[0]);
+    whole_body_ = flags[1] != 0.0;
+    angular_ = flags[2] != 0.0;
+    posture_ = flags[3] != 0.0;
+    friction_ = flags[4] != 0.0;
+    rolling_ = flags[5] != 0.0;
+    r_ = scalars[0], b_ = scalars[1], kw_ = scalars[2], vs_ = scalars[3];
+    eps2_ = scalars[5];
+    k_ = static_cast<Eigen::Index>(rows_.size());
+    nv_ = S.cols();
+    n_arm_ = nv_ - 2;
+    J6_ = MatrixXd::Zero(6, S.rows());
+    w_ = VectorXd::Zero(GG.cols());
+  }
+
+  // x = [p_d (3), R_d (9, row-major), v_d (6), a_d (6), plan v, ω, a, α];
+  // out = [Q_sent | Q | LB (k, k+1) | J̇ν (k) | g (k + nv) | M (nv, nv) | h (nv) |
+  //        z (6 + 2k) | J (k, nv)], matrices row-major.  Returns 0, or 2 when
+  // the task mobility is not safely invertible (the caller takes the damped path).
+  int command(const Model& model, Data& data, CRefV q, CRefV nu, CRefV x, RefV out) {
+    using RowMat = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
+    using MapR = Eigen::Map<RowMat>;
+    const Eigen::Index k = k_, nv = nv_;
+    double* o = out.data();
+    Eigen::Map<VectorXd> Q_sent(o, nv), Q(o + nv, nv);
+    o += 2 * nv;
+    MapR LB(o, k, k + 1);
+    o += k * (k + 1);
+    Eigen::Map<VectorXd> Jdot_nu(o, k);
+    o += k;
+    Eigen::Map<VectorXd> g(o, k + nv);
+    o += k + nv;
+    MapR M(o, nv, nv);
+    o += nv * nv;
+    Eigen::Map<VectorXd> h(o, nv);
+    o += nv;
+    Eigen::Map<VectorXd> z(o, 6 + 2 * k);
+    o += 6 + 2 * k;
+    MapR J(o, k, nv);
+
+    const VectorXd v = S_ * nu;
+    pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);
+    Mfull_ = data.M.selfadjointView<Eigen::Upper>();
+    M.noalias() = St_ * Mfull_ * S_;
+    J6_.setZero();
+    pinocchio::getFrameJacobian(model, data, fid_, pinocchio::LOCAL_WORLD_ALIGNED, J6_);
+    for (Eigen::Index i = 0; i < k; ++i) J.row(i).noalias() = J6_.row(rows_[size_t(i)]) * S_;
+    pinocchio::nonLinearEffects(model, data, q, v);
+    h.noalias() = St_ * data.nle;
+    pinocchio::forwardKinematics(model, data, q, v, VectorXd::Zero(model.nv));
+    const Eigen::Matrix<double, 6, 1> acc =
+        pinocchio::getFrameClassicalAcceleration(model, data, fid_, pinocchio::LOCAL_WORLD_ALIGNED)
+            .toVector();
+    const pinocchio::SE3& X = pinocchio::updateFramePlacement(model, data, fid_);
+
+    // z = [e₆; ẋ_d − ẋ; ẍ_d − J̇ν]
+    Eigen::Map<const Eigen::Matrix<double, 3, 3, Eigen::RowMajor>> R_d(x.data() + 3);
+    z.head<3>() = x.head<3>() - X.translation();
+    if (angular_)
+      z.segment<3>(3) = pinocchio::log3(Eigen::Matrix3d(R_d * X.rotation().transpose()));
+    else
+      z.segment<3>(3).setZero();
+    const VectorXd Jnu = J * nu;
+    for (Eigen::Index i = 0; i < k; ++i) {
+      const int row = rows_[size_t(i)];
+      Jdot_nu[i] = acc[row];
+      z[6 + i] = x[12 + row] - Jnu[i];
+      z[6 + k + i] = x[18 + row] - acc[row];
+    }
+    // g = GG w = [a* − J̇ν; ν̇₀], w = [z; ν; q₀ − q_arm]
+    const Eigen::Index nz = 6 + 2 * k;
+    w_.head(nz) = z;
+    w_.segment(nz, nv) = nu;
+    if (posture_) w_.tail(n_arm_) = q0_ - q.tail(n_arm_);
+    g.noalias() = GG_ * w_;
+    auto ga = g.head(k);
+    auto nd0 = g.tail(nv);
+    {   // the base plan's wheel terms ν̇_w,plan + K_w ν_w,plan
+      const double vp = x[26] + kw_ * x[24], wp = x[27] + kw_ * x[25];
+      nd0[0] += (vp + b_ * wp) / r_;
+      nd0[1] += (vp - b_ * wp) / r_;
+    }
+    VectorXd b(k);
+    if (whole_body_) {
+      const VectorXd M_nd0 = M * nd0;
+      rhs_.resize(nv, k + 1);
+      rhs_.leftCols(k) = J.transpose();
+      rhs_.col(k) = h - M_nd0;
+      llt_.compute(M);
+      if (llt_.info() != Eigen::Success) return 2;
+      Y_ = llt_.solve(rhs_);
+      JY_.noalias() = J * Y_;
+      b = JY_.col(k) + ga;
+      if (!task_solve(LB, b)) return 2;
+      Q.noalias() = J.transpose() * LB.col(k);
+      Q += M_nd0;
+    } else {
+      // nd0 = u = [ν̇_w*; −ν̇₀,a]: h' = h_a + M[2:] u
+      const Eigen::Index na = nv - 2;
+      rhs_.resize(na, k + 1);
+      rhs_.leftCols(k) = J.rightCols(na).transpose();
+      rhs_.col(k) = M.bottomRows(na) * nd0 + h.tail(na);
+      llt_.compute(M.bottomRightCorner(na, na));
+      if (llt_.info() != Eigen::Success) return 2;
+      Y_ = llt_.solve(rhs_);
+      JY_.noalias() = J.rightCols(na) * Y_;
+      b = JY_.col(k) + ga - J.leftCols(2) * nd0.head(2);
+      if (!task_solve(LB, b)) return 2;
+      VectorXd fe(k + 1);
+      fe.head(k) = LB.col(k);
+      fe[k] = -1.0;
+      VectorXd nu_dot(nv);
+      nu_dot.head(2) = nd0.head(2);
+      nu_dot.tail(na).noalias() = Y_ * fe;
+      Q.noalias() = M * nu_dot;
+      Q += h;
+    }
+    if (friction_) {
+      for (Eigen::Index i = 0; i < nv; ++i) {
+        const double c = vs_ > 0.0 ? std::tanh(nu[i] * (1.0 / vs_)) : sign(nu[i]);
+        Q[i] += coulomb_[i] * c + viscous_[i] * nu[i];
+      }
+      if (rolling_) {
+        double f0, f1;
+        rolling_model_.load(model, data, q);
+        rolling_model_.efforts(nu[0], nu[1], f0, f1);
+        Q[0] += f0;
+        Q[1] += f1;
+      }
+    }
+    Q_sent = Q.cwiseMin(limit_).cwiseMax(-limit_);
+    return 0;
+  }
+
+ private:
+  // LB = Λ [I | b] from the mobility JY[:, :k]; false when it is not PD or
+  // trace(Λ) ε² > 1 (σ_min not certified above ε: the damped path decides)
+  template <class MatLB>
+  bool task_solve(MatLB& LB, const VectorXd& b) {
+    const Eigen::Index k = k_;
+    task_llt_.compute(JY_.leftCols(k));
+    if (task_llt_.info() != Eigen::Success) return false;
+    LB.leftCols(k) = task_llt_.solve(MatrixXd::Identity(k, k));
+    LB.col(k) = task_llt_.solve(b);
+    return !(eps2_ > 0.0 && LB.leftCols(k).trace() * eps2_ > 1.0);
+  }
+
+  MatrixXd S_, St_, GG_;
+  VectorXd q0_, coulomb_, viscous_, limit_;
+  Rolling rolling_model_;
+  std::vector<int> rows_;
+  pinocchio::FrameIndex fid_;
+  bool whole_body_, angular_, posture_, friction_, rolling_;
+  double r_, b_, kw_, vs_, eps2_;
+  Eigen::Index k_, nv_, n_arm_;
+  MatrixXd J6_, Mfull_, rhs_, Y_, JY_;
+  VectorXd w_;
+  Eigen::LLT<MatrixXd> llt_, task_llt_;
+};
+
+}  // namespace
+
+BOOST_PYTHON_MODULE(_kernel) {
+  eigenpy::enableEigenPy();
+  bp::scope().attr("PINOCCHIO_VERSION") = PINOCCHIO_VERSION;
+  bp::scope().attr("EIGENPY_VERSION") = EIGENPY_VERSION;
+  bp::class_<Plant>("Plant", bp::init<const MatrixXd&, const VectorXd&, const VectorXd&,
+                                      const VectorXd&, bool, const MatrixXd&, const MatrixXd&,
+                                      double, double>())
+      .def("rk4", &Plant::rk4)
+      .def("euler", &Plant::euler)
+      .def("accel", &Plant::accel_only);
+  bp::class_<Controller>("Controller",
+                         bp::init<const MatrixXd&, const MatrixXd&, const VectorXd&,
+                                  const VectorXd&, const VectorXd&, const VectorXd&,
+                                  const MatrixXd&, const MatrixXd&, const VectorXd&,
+                                  const VectorXd&, const VectorXd&>())
+      .def("command", &Controller::command);
+}

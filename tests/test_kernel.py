@@ -1,0 +1,195 @@
+"""The compiled kernel (opspace/_kernel.cpp) against the NumPy reference loop.
+
+The kernel computes the same equations as `opspace.simulate` (the plant and its
+RK4 / Euler steps) and `OperationalSpaceController._command_numpy`; these tests
+hold the two implementations to round-off on random states.  The physics of
+both is checked against outside references in test_simulate.py and
+test_control.py, which run each check on both loops.
+"""
+
+from __future__ import annotations
+
+import os
+
+import numpy as np
+import pytest
+
+import opspace
+from opspace import _compiled
+from opspace.control import BasePlan, OperationalSpaceController, Target
+from opspace.description.scenario import load_scenario
+from opspace.simulate import _Plant, _rk4, ScenarioRun, simulate
+from conftest import DEMO, random_state
+
+needs_kernel = pytest.mark.skipif(not _compiled.available(),
+                                  reason="the compiled kernel is not built")
+
+
+def test_kernel_is_built_where_required():
+    # CI installs with OPSPACE_REQUIRE_KERNEL=1: there the kernel must import and
+    # match the Pinocchio in use; elsewhere the NumPy loop is a valid fallback.
+    if os.environ.get("OPSPACE_REQUIRE_KERNEL") != "1":
+        pytest.skip("OPSPACE_REQUIRE_KERNEL is not set")
+    assert _compiled.available()
+
+
+def close(a, b, rtol=1e-11):
+    """|a − b| within rtol of the larger magnitude of the two (round-off)."""
+    a, b = np.asarray(a, float), np.asarray(b, float)
+    scale = max(np.abs(a).max(initial=0.0), np.abs(b).max(initial=0.0), 1.0)
+    np.testing.assert_allclose(a, b, rtol=0, atol=rtol * scale)
+
+
+# ------------------------------------------------------------------ the plant
+@needs_kernel
+@pytest.mark.parametrize("integrator", ["rk4", "euler"])
+@pytest.mark.parametrize("friction", [True, False])
+@pytest.mark.parametrize("locked", [None, "wheels"])
+def test_plant_step_equals_numpy(demo, rng, integrator, friction, locked):
+    lock = np.zeros(demo.nv, bool)
+    if locked == "wheels":
+        lock[:2] = True
+    kernel = _compiled.kernel_plant(demo, lock, friction)
+    plant = _Plant(demo, lock, friction)
+    h, S = 1e-3, demo.S
+    for _ in range(5):
+        q, nu = random_state(demo, rng)
+        nu[lock] = 0.0
+        Q = rng.normal(size=demo.nv) * 20.0
+        Q[lock] = 0.0
+        plant.start_step(q)
+        a1 = plant.accel(q, nu, Q)
+        if integrator == "rk4":
+            q_ref, nu_ref = _rk4(demo.model, plant, (S * h / 2, S * h, S * h / 6), q, nu, a1, Q, h)
+        else:
+            nu_ref = nu + h * a1
+            q_ref = opspace.model.pin.integrate(demo.model, q, S.dot(nu_ref) * h)
+        qk, nuk, out = q.copy(), nu.copy(), np.empty(demo.nv)
+        step = kernel.rk4 if integrator == "rk4" else kernel.euler
+        assert step(demo.model, plant.data, qk, nuk, Q, h, out) == 0
+        close(out, a1)
+        close(qk, q_ref, 1e-13)
+        close(nuk, nu_ref)
+        assert np.all(nuk[lock] == 0.0)
+
+
+@needs_kernel
+def test_plant_with_a_payload_equals_numpy(demo, rng):
+    # the kernel reads the model's inertias at every call: a pick seen at once
+    with demo.kept():
+        demo.attach_payload(demo.description.payload)
+        lock = np.zeros(demo.nv, bool)
+        kernel, plant = _compiled.kernel_plant(demo, lock, True), _Plant(demo, lock, True)
+        q, nu = random_state(demo, rng)
+        Q = rng.normal(size=demo.nv)
+        plant.start_step(q)
+        out = np.empty(demo.nv)
+        assert kernel.accel(demo.model, plant.data, q, nu, Q, out) == 0
+        close(out, plant.accel(q, nu, Q))
+
+
+@needs_kernel
+def test_plant_reports_a_mass_matrix_that_is_not_positive_definite(demo):
+    # a zero-inertia coordinate makes M singular: the kernel returns 1 (not PD)
+    with demo.kept():
+        lock = np.zeros(demo.nv, bool)
+        kernel = _compiled.kernel_plant(demo, lock, False)
+        model = demo.model
+        saved = model.inertias[model.njoints - 1], model.armature.copy()
+        try:
+            model.inertias[model.njoints - 1] = opspace.model.pin.Inertia.Zero()
+            model.armature[:] = 0.0
+            q = demo.configuration(arm="carry")
+            out = np.empty(demo.nv)
+            assert kernel.accel(model, model.createData(), q, np.zeros(demo.nv),
+                                np.zeros(demo.nv), out) == 1
+        finally:
+            model.inertias[model.njoints - 1] = saved[0]
+            model.armature[:] = saved[1]
+
+
+# ------------------------------------------------------------------ the controller
+CASES = [  # (mode, axes, posture, friction feed-forward, friction velocity)
+    ("whole_body", "full", "carry", False, 0.0),
+    ("whole_body", "linear", None, True, 0.0),
+    ("arm_only", "full", "carry", True, 0.02),
+    ("arm_only", "linear", "carry", False, 0.0),
+    ("arm_only", ("x", "z", "rz"), None, True, 0.05),
+]
+
+
+@needs_kernel
+@pytest.mark.parametrize("mode, axes, posture, ff, vs", CASES)
+def test_command_equals_numpy(demo, rng, mode, axes, posture, ff, vs):
+    kw = dict(mode=mode, axes=axes, posture=posture, friction_feedforward=ff,
+              friction_velocity=vs, wheel_gain=7.0)
+    fast = OperationalSpaceController(demo, compiled=True, **kw)
+    ref = OperationalSpaceController(demo, compiled=False, **kw)
+    for _ in range(6):
+        q, nu = random_state(demo, rng, scale=0.5)
+        X = demo.frame_placement(q, demo.tool_frame_id)
+        R = X.rotation @ opspace.model.pin.rpy.rpyToMatrix(*rng.normal(scale=0.2, size=3))
+        target = Target(X.translation + rng.normal(scale=0.05, size=3), R,
+                        rng.normal(size=6) * 0.2, rng.normal(size=6))
+        plan = BasePlan(*rng.normal(size=4) * 0.3)
+        Q = fast.command(q, nu, target, base=plan)
+        Q_ref = ref.command(q, nu, target, base=plan)
+        close(Q, Q_ref, 1e-10)
+        a, b = fast.info, ref.info
+        for name in ("Q_demand", "error", "velocity_error", "a_star", "F"):
+            close(getattr(a, name), getattr(b, name), 1e-10)
+        assert a.saturated.tolist() == b.saturated.tolist() and a.damped == b.damped
+        close(fast.last_demand()[1], ref.last_demand()[1], 1e-10)
+        close(fast._Mh[0], ref._Mh[0])
+        close(fast._Mh[1], ref._Mh[1])
+
+
+@needs_kernel
+def test_command_near_a_singularity_hands_over_to_the_damped_path(demo):
+    # the kernel does not certify the task inertia near a singular pose: the NumPy
+    # path (which owns the damped inverse) takes the call, with the same result
+    q = demo.configuration(arm="reach_forward")
+    target = Target.hold(demo, q)
+    nu = np.zeros(demo.nv)
+    fast = OperationalSpaceController(demo, mode="arm_only", posture="carry", compiled=True)
+    ref = OperationalSpaceController(demo, mode="arm_only", posture="carry", compiled=False)
+    np.testing.assert_array_equal(fast.command(q, nu, target), ref.command(q, nu, target))
+    assert fast.info.damped and ref.info.damped
+
+
+@needs_kernel
+def test_command_returns_its_own_array(demo, rng):
+    # the public command copies out of the kernel's buffer: earlier results stay
+    ctrl = OperationalSpaceController(demo, posture="carry", compiled=True)
+    q, nu = random_state(demo, rng)
+    target = Target.hold(demo, q)
+    Q1 = ctrl.command(q, nu, target)
+    kept = Q1.copy()
+    ctrl.command(q, 2 * nu, target)
+    np.testing.assert_array_equal(Q1, kept)
+
+
+def test_compiled_true_without_the_kernel_is_refused(demo, monkeypatch):
+    monkeypatch.setattr(_compiled, "available", lambda: False)
+    monkeypatch.setattr(_compiled, "kernel_plant", lambda *a: None)
+    with pytest.raises(RuntimeError, match="not available"):
+        OperationalSpaceController(demo, compiled=True)
+    with pytest.raises(RuntimeError, match="not available"):
+        simulate(demo, None, duration=0.01, q0=demo.configuration(), compiled=True)
+
+
+# ------------------------------------------------------------------ a whole run
+@needs_kernel
+def test_demo_run_without_friction_equals_numpy():
+    # without the Coulomb terms the closed loop is smooth, so the two loops stay
+    # within round-off of each other over the whole pick (with them, a velocity
+    # crossing zero can turn a 1e-15 difference into a different sign of f_C)
+    sc = load_scenario(DEMO.with_name("pick.toml"))
+    sc = type(sc)(**{**sc.__dict__, "friction": False,
+                     "controller": {**sc.controller, "friction_feedforward": False}})
+    a = ScenarioRun(sc, compiled=True).run(stability=False)
+    b = ScenarioRun(sc, compiled=False).run(stability=False)
+    assert a.status == b.status == "completed"
+    close(a.q, b.q, 1e-9)
+    close(a.Q, b.Q, 1e-8)
+    assert a.position_error.max() < 5e-3
