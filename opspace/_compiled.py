@@ -17,7 +17,7 @@ import warnings
 import numpy as np
 import pinocchio as pin
 
-__all__ = ["available", "kernel_plant"]
+__all__ = ["available", "frame_placements", "kernel_plant"]
 
 
 @functools.cache
@@ -57,3 +57,16 @@ def kernel_plant(robot, locked, friction):
                    np.asarray(robot.viscous, float), bool(friction),
                    np.asarray(terms.A_pinv, float), casters, float(robot.rolling_resistance),
                    float(robot.wheel_radius))
+
+
+def frame_placements(robot, qs, frame_id):
+    """World position (n, 3) and rotation (n, 3, 3) of a frame at each of the
+    configurations qs (n, nq), in one compiled call; None if unavailable."""
+    k = _module()
+    if k is None:
+        return None
+    qs = np.ascontiguousarray(qs, dtype=float)
+    out = np.empty((len(qs), 12))
+    k.frame_placements(robot.model, robot.model.createData(), qs.ravel(), int(frame_id),
+                       out.ravel())
+    return out[:, :3].copy(), out[:, 3:].reshape(-1, 3, 3).copy()

@@ -54,9 +54,12 @@ class Rolling {
       : A_(A), casters_(casters), c_rr_(c_rr), r_(r),
         cN_(static_cast<size_t>(casters.rows()), 0.0) {}
 
-  // the loads at q (forward kinematics and the COM into data)
-  void load(const Model& model, Data& data, CRefV q) {
-    const Eigen::Vector3d com = pinocchio::centerOfMass(model, data, q, false);
+  // the loads at q (forward kinematics and the COM into data); `placed`: the
+  // joint placements in data are those of q already (no kinematics pass)
+  void load(const Model& model, Data& data, CRefV q, bool placed = false) {
+    const Eigen::Vector3d com = placed ? pinocchio::centerOfMass(model, data, pinocchio::POSITION,
+                                                                 false)
+                                       : pinocchio::centerOfMass(model, data, q, false);
     const double dx = com[0] - q[0], dy = com[1] - q[1], c = q[2], s = q[3];
     const double xp = c * dx + s * dy, yp = c * dy - s * dx;
     const double W = data.mass[0] * -model.gravity.linear()[2];
@@ -168,7 +171,8 @@ class Plant {
   }
 
   // One classical RK4 step (as `_rk4`): q, ν advanced in place, ν̇ at the
-  // start written to nu_dot.  Returns 0, or 1 when M is not PD.
+  // start written to nu_dot.  Returns 0, 1 when M is not PD, 2 when the new
+  // state is not finite (NaN or inf).
   int rk4(const Model& model, Data& data, RefV q, RefV nu, CRefV Q, double h, RefV nu_dot) {
     start(model, data, q);
     if (!accel(model, data, q, nu, Q, nu_dot)) return 1;
@@ -183,7 +187,7 @@ class Plant {
     dq_.noalias() = S_ * ((h / 6.0) * (nu + 2.0 * (nu2_ + nu3_) + nu4_));
     integrate(model, q);
     nu += (h / 6.0) * (nu_dot + 2.0 * (a2_ + a3_) + a4_);
-    return 0;
+    return finite(q, nu) ? 0 : 2;
   }
 
   // Semi-implicit Euler: ν⁺ = ν + h ν̇(q, ν), q⁺ = q ⊕ h S ν⁺.
@@ -193,7 +197,7 @@ class Plant {
     nu += h * nu_dot;
     dq_.noalias() = S_ * (h * nu);
     integrate(model, q);
-    return 0;
+    return finite(q, nu) ? 0 : 2;
   }
 
   // ν̇ alone (the last recorded sample), with the loads of q.
@@ -211,6 +215,8 @@ class Plant {
     pinocchio::integrate(model, q, dq_, qs_);
     return accel(model, data, qs_, nu_i, Q, out);
   }
+
+  static bool finite(CRefV q, CRefV nu) { return q.allFinite() && nu.allFinite(); }
 
   void integrate(const Model& model, RefV q) {
     qs_.resize(q.size());
@@ -256,6 +262,15 @@ class Controller {
     n_arm_ = nv_ - 2;
     J6_ = MatrixXd::Zero(6, S.rows());
     w_ = VectorXd::Zero(GG.cols());
+    zero_ = VectorXd::Zero(S.rows());
+    v_.resize(S.rows());
+    Jnu_.resize(k_);
+    bvec_.resize(k_);
+    M_nd0_.resize(nv_);
+    fe_.resize(k_ + 1);
+    nu_dot_.resize(nv_);
+    eye_ = MatrixXd::Identity(k_, k_);
+    rhs_.resize(whole_body_ ? nv_ : nv_ - 2, k_ + 1);
   }
 
   // x = [p_d (3), R_d (9, row-major), v_d (6), a_d (6), plan v, ω, a, α];
@@ -283,16 +298,16 @@ class Controller {
     o += 6 + 2 * k;
     MapR J(o, k, nv);
 
-    const VectorXd v = S_ * nu;
+    v_.noalias() = S_ * nu;
     pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);
     Mfull_ = data.M.selfadjointView<Eigen::Upper>();
     M.noalias() = St_ * Mfull_ * S_;
     J6_.setZero();
     pinocchio::getFrameJacobian(model, data, fid_, pinocchio::LOCAL_WORLD_ALIGNED, J6_);
     for (Eigen::Index i = 0; i < k; ++i) J.row(i).noalias() = J6_.row(rows_[size_t(i)]) * S_;
-    pinocchio::nonLinearEffects(model, data, q, v);
+    pinocchio::nonLinearEffects(model, data, q, v_);
     h.noalias() = St_ * data.nle;
-    pinocchio::forwardKinematics(model, data, q, v, VectorXd::Zero(model.nv));
+    pinocchio::forwardKinematics(model, data, q, v_, zero_);
     const Eigen::Matrix<double, 6, 1> acc =
         pinocchio::getFrameClassicalAcceleration(model, data, fid_, pinocchio::LOCAL_WORLD_ALIGNED)
             .toVector();
@@ -305,11 +320,11 @@ class Controller {
       z.segment<3>(3) = pinocchio::log3(Eigen::Matrix3d(R_d * X.rotation().transpose()));
     else
       z.segment<3>(3).setZero();
-    const VectorXd Jnu = J * nu;
+    Jnu_.noalias() = J * nu;
     for (Eigen::Index i = 0; i < k; ++i) {
       const int row = rows_[size_t(i)];
       Jdot_nu[i] = acc[row];
-      z[6 + i] = x[12 + row] - Jnu[i];
+      z[6 + i] = x[12 + row] - Jnu_[i];
       z[6 + k + i] = x[18 + row] - acc[row];
     }
     // g = GG w = [a* − J̇ν; ν̇₀], w = [z; ν; q₀ − q_arm]
@@ -325,39 +340,38 @@ class Controller {
       nd0[0] += (vp + b_ * wp) / r_;
       nd0[1] += (vp - b_ * wp) / r_;
     }
-    VectorXd b(k);
     if (whole_body_) {
-      const VectorXd M_nd0 = M * nd0;
-      rhs_.resize(nv, k + 1);
+      M_nd0_.noalias() = M * nd0;
       rhs_.leftCols(k) = J.transpose();
-      rhs_.col(k) = h - M_nd0;
+      rhs_.col(k) = h - M_nd0_;
       llt_.compute(M);
       if (llt_.info() != Eigen::Success) return 2;
-      Y_ = llt_.solve(rhs_);
+      Y_ = rhs_;
+      llt_.solveInPlace(Y_);
       JY_.noalias() = J * Y_;
-      b = JY_.col(k) + ga;
-      if (!task_solve(LB, b)) return 2;
+      bvec_ = JY_.col(k) + ga;
+      if (!task_solve(LB, bvec_)) return 2;
       Q.noalias() = J.transpose() * LB.col(k);
-      Q += M_nd0;
+      Q += M_nd0_;
     } else {
       // nd0 = u = [ν̇_w*; −ν̇₀,a]: h' = h_a + M[2:] u
       const Eigen::Index na = nv - 2;
-      rhs_.resize(na, k + 1);
       rhs_.leftCols(k) = J.rightCols(na).transpose();
-      rhs_.col(k) = M.bottomRows(na) * nd0 + h.tail(na);
+      rhs_.col(k).noalias() = M.bottomRows(na) * nd0;
+      rhs_.col(k) += h.tail(na);
       llt_.compute(M.bottomRightCorner(na, na));
       if (llt_.info() != Eigen::Success) return 2;
-      Y_ = llt_.solve(rhs_);
+      Y_ = rhs_;
+      llt_.solveInPlace(Y_);
       JY_.noalias() = J.rightCols(na) * Y_;
-      b = JY_.col(k) + ga - J.leftCols(2) * nd0.head(2);
-      if (!task_solve(LB, b)) return 2;
-      VectorXd fe(k + 1);
-      fe.head(k) = LB.col(k);
-      fe[k] = -1.0;
-      VectorXd nu_dot(nv);
-      nu_dot.head(2) = nd0.head(2);
-      nu_dot.tail(na).noalias() = Y_ * fe;
-      Q.noalias() = M * nu_dot;
+      bvec_ = JY_.col(k) + ga;
+      bvec_.noalias() -= J.leftCols(2) * nd0.head(2);
+      if (!task_solve(LB, bvec_)) return 2;
+      fe_.head(k) = LB.col(k);
+      fe_[k] = -1.0;
+      nu_dot_.head(2) = nd0.head(2);
+      nu_dot_.tail(na).noalias() = Y_ * fe_;
+      Q.noalias() = M * nu_dot_;
       Q += h;
     }
     if (friction_) {
@@ -367,7 +381,7 @@ class Controller {
       }
       if (rolling_) {
         double f0, f1;
-        rolling_model_.load(model, data, q);
+        rolling_model_.load(model, data, q, true);   // data holds q's placements
         rolling_model_.efforts(nu[0], nu[1], f0, f1);
         Q[0] += f0;
         Q[1] += f1;
@@ -385,7 +399,7 @@ class Controller {
     const Eigen::Index k = k_;
     task_llt_.compute(JY_.leftCols(k));
     if (task_llt_.info() != Eigen::Success) return false;
-    LB.leftCols(k) = task_llt_.solve(MatrixXd::Identity(k, k));
+    LB.leftCols(k) = task_llt_.solve(eye_);
     LB.col(k) = task_llt_.solve(b);
     return !(eps2_ > 0.0 && LB.leftCols(k).trace() * eps2_ > 1.0);
   }
@@ -398,10 +412,23 @@ class Controller {
   bool whole_body_, angular_, posture_, friction_, rolling_;
   double r_, b_, kw_, vs_, eps2_;
   Eigen::Index k_, nv_, n_arm_;
-  MatrixXd J6_, Mfull_, rhs_, Y_, JY_;
-  VectorXd w_;
+  MatrixXd J6_, Mfull_, rhs_, Y_, JY_, eye_;
+  VectorXd w_, zero_, v_, Jnu_, bvec_, M_nd0_, fe_, nu_dot_;
   Eigen::LLT<MatrixXd> llt_, task_llt_;
 };
+
+// The world placement of frame `fid` at n configurations qs (n * nq, row after
+// row): out (n * 12) = [p (3), R (9, row-major)] per configuration.
+void frame_placements(const Model& model, Data& data, CRefV qs, int fid, RefV out) {
+  const Eigen::Index nq = model.nq, n = qs.size() / nq;
+  const auto f = static_cast<pinocchio::FrameIndex>(fid);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    pinocchio::forwardKinematics(model, data, qs.segment(i * nq, nq));
+    const pinocchio::SE3& X = pinocchio::updateFramePlacement(model, data, f);
+    out.segment<3>(12 * i) = X.translation();
+    for (int r = 0; r < 3; ++r) out.segment<3>(12 * i + 3 + 3 * r) = X.rotation().row(r);
+  }
+}
 
 }  // namespace
 
@@ -421,4 +448,5 @@ BOOST_PYTHON_MODULE(_kernel) {
                                   const MatrixXd&, const MatrixXd&, const VectorXd&,
                                   const VectorXd&, const VectorXd&>())
       .def("command", &Controller::command);
+  bp::def("frame_placements", frame_placements);
 }

@@ -343,7 +343,7 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     limit = robot.effort_limit
     finite_limit = np.isfinite(limit)
     n_rec = n_steps // record_every + 1
-    rec = _Recorder(robot, n_rec)
+    rec = _Recorder(robot, n_rec, compiled=compiled is not False)
     Q = np.zeros(robot.nv)
     info = None
     t = 0.0
@@ -356,12 +356,16 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
         if controller_robot is not None and controller_robot is not robot:
             kept.enter_context(controller_robot.kept())
         try:
+            t_event = events[0].t - 1e-12 if events else math.inf
+            held = robot.payload is not None
             for step in range(n_steps + 1):
                 t = step * dt
-                while k_event < len(events) and events[k_event].t <= t + 1e-12:
+                while t >= t_event:
                     nu = _apply_event(events[k_event], robot, plant, controller_robot, q, nu)
                     k_event += 1
-                if step % n_ctrl == 0 and control is not None:
+                    t_event = events[k_event].t - 1e-12 if k_event < len(events) else math.inf
+                    held = robot.payload is not None
+                if control is not None and step % n_ctrl == 0:
                     Q, info = control(t, q, nu)
                     if any_locked:
                         Q = np.where(locked, 0.0, Q)
@@ -375,8 +379,7 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
                                         f"{Qd[i]:.4g}, more than {blowup:g} x its limit "
                                         f"{limit[i]:g}")
                 # the state before the step is recorded; ν̇ at it lands in `out`
-                out = (rec.add(t, q, nu, Q, info, robot.payload is not None)
-                       if step % record_every == 0 else scratch)
+                out = rec.add(t, q, nu, Q, info, held) if step % record_every == 0 else scratch
                 if kernel is not None:         # one compiled call: q, ν advance in place
                     if step == n_steps:
                         code = kernel.accel(model, plant.data, q, nu, Q, out)
@@ -384,8 +387,10 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
                         code = kernel.rk4(model, plant.data, q, nu, Q, h, out)
                     else:
                         code = kernel.euler(model, plant.data, q, nu, Q, h, out)
-                    if code:
+                    if code == 1:
                         raise ModelError("mass matrix not positive definite")
+                    if code == 2:
+                        raise _Stop("the state became non-finite (NaN or inf)")
                     if step == n_steps:
                         break
                 else:
@@ -401,8 +406,8 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
                     else:
                         nu = nu + h * nu_dot
                         q = pin.integrate(model, q, S.dot(nu) * h)
-                if not (math.isfinite(nu.dot(nu)) and math.isfinite(q.dot(q))):
-                    raise _Stop("the state became non-finite (NaN or inf)")
+                    if not (math.isfinite(nu.dot(nu)) and math.isfinite(q.dot(q))):
+                        raise _Stop("the state became non-finite (NaN or inf)")
                 if progress and step % 500 == 0:
                     progress(step, n_steps)
         except (_Stop, ModelError) as exc:
@@ -449,33 +454,46 @@ def _rk4(model, plant, S_h, q, nu, a1, Q, h):
 
 
 class _Recorder:
-    def __init__(self, robot, n):
-        nq, nv = robot.model.nq, robot.nv
+    """The samples of a run: one row of [q | ν | Q | Q_demand | e | p_d] per sample
+    (written by one call), with t, ν̇, the saturation and payload flags beside it."""
+
+    def __init__(self, robot, n, compiled):
+        self.nq, self.nv, self.n, self.compiled = robot.model.nq, robot.nv, n, compiled
         self.t = np.empty(n)
-        self.q, self.nu, self.nu_dot = np.empty((n, nq)), np.empty((n, nv)), np.empty((n, nv))
-        self.Q, self.Qd = np.empty((n, nv)), np.empty((n, nv))
-        self.sat = np.zeros((n, nv), bool)
+        self.nu_dot = np.empty((n, self.nv))
+        self.sat = np.zeros((n, self.nv), bool)
         self.payload = np.zeros(n, bool)
-        self.target = np.full((n, 3), np.nan)
-        self.error = None
+        self.table = None
         self.i = 0
+
+    def _columns(self, k):
+        """The table for a task error of width k (the rows so far are kept)."""
+        nq, nv = self.nq, self.nv
+        old = self.table
+        self.table = np.full((self.n, nq + 3 * nv + k + 3), np.nan)
+        cut = np.cumsum([0, nq, nv, nv, nv, k, 3])
+        cols = [self.table[:, a:b] for a, b in zip(cut[:-1], cut[1:])]
+        if old is not None:
+            for new, prev in zip(cols, (self.q, self.nu, self.Q, self.Qd, None, self.target)):
+                if prev is not None:
+                    new[:self.i] = prev[:self.i]
+        self.q, self.nu, self.Q, self.Qd, self.error, self.target = cols
+        self._no_target, self._no_error, self.k = np.full(3, np.nan), np.full(k, np.nan), k
 
     def add(self, t, q, nu, Q, info, has_payload):
         """Record a sample; returns its ν̇ row, for the caller to fill."""
         i = self.i
-        self.t[i], self.q[i], self.nu[i], self.Q[i] = t, q, nu, Q
+        if self.table is None or (info is not None and len(info.error) != self.k):
+            self._columns(0 if info is None else len(info.error))
+        self.t[i] = t
         self.payload[i] = has_payload
         if info is None:
-            self.Qd[i] = Q
+            np.concatenate((q, nu, Q, Q, self._no_error, self._no_target), out=self.table[i])
         else:
-            self.Qd[i] = info.Q_demand
-            self.sat[i] = info.saturated
-            if self.error is None:
-                self.error = np.full((len(self.t), len(info.error)), np.nan)
-            self.error[i] = info.error
             tgt = getattr(info, "target_position", None)
-            if tgt is not None:
-                self.target[i] = tgt
+            np.concatenate((q, nu, Q, info.Q_demand, info.error,
+                            self._no_target if tgt is None else tgt), out=self.table[i])
+            self.sat[i] = info.saturated
         self.i += 1
         return self.nu_dot[i]
 
@@ -483,13 +501,20 @@ class _Recorder:
                end_payload):
         n = self.i
         sl = slice(0, n)
-        data = robot.model.createData()
+        if self.table is None:
+            self._columns(0)
         fid = robot.tool_frame_id
-        pos, rot = np.empty((n, 3)), np.empty((n, 3, 3))
-        for i in range(n):
-            pin.framesForwardKinematics(robot.model, data, self.q[i])
-            pos[i], rot[i] = data.oMf[fid].translation, data.oMf[fid].rotation
-        err = self.error[sl] if self.error is not None else np.full((n, 0), np.nan)
+        from ._compiled import frame_placements
+        poses = frame_placements(robot, self.q[sl], fid) if self.compiled else None
+        if poses is None:
+            data = robot.model.createData()
+            pos, rot = np.empty((n, 3)), np.empty((n, 3, 3))
+            for i in range(n):
+                pin.framesForwardKinematics(robot.model, data, self.q[i])
+                pos[i], rot[i] = data.oMf[fid].translation, data.oMf[fid].rotation
+        else:
+            pos, rot = poses
+        err = self.error[sl].copy()
         track = None
         if stability and n > 0:
             track = _stability(robot, self.q[sl], self.nu[sl], self.nu_dot[sl], self.Q[sl],
@@ -529,13 +554,15 @@ def _stability(robot, qs, nus, nu_dots, Qs, payload, end_payload):
 
 
 # ------------------------------------------------------------------ scenarios
-@dataclass(frozen=True)
 class _StepInfo:
-    Q_demand: np.ndarray
-    saturated: np.ndarray
-    error: np.ndarray
-    target_position: np.ndarray
-    Mh: tuple | None = None       # (M, c + g) the controller computed at this (q, ν)
+    """What a scenario's controller did at one sample (a plain slotted record:
+    one is made per control step).  Mh: (M, c + g) it computed at this (q, ν)."""
+
+    __slots__ = ("Q_demand", "saturated", "error", "target_position", "Mh")
+
+    def __init__(self, Q_demand, saturated, error, target_position, Mh=None):
+        self.Q_demand, self.saturated, self.error = Q_demand, saturated, error
+        self.target_position, self.Mh = target_position, Mh
 
 
 class ScenarioRun:
@@ -614,6 +641,8 @@ class ScenarioRun:
         self._plans = [BasePlan(*vals) for vals in zip(b["v"].tolist(), b["omega"].tolist(),
                                                        b["a"].tolist(), b["alpha"].tolist())]
         # the same, packed for the compiled command (`OperationalSpaceController.pack`)
+        self._rate, self._last = 1.0 / sc.control_period, len(self.t_ctrl) - 1
+        self._same_robot = self.controller_robot is self.robot
         self._packed = np.column_stack([tool.p, tool.R.reshape(-1, 9), vel, acc, b["v"],
                                         b["omega"], b["a"], b["alpha"]])
         self.events = []
@@ -633,17 +662,17 @@ class ScenarioRun:
         """The controller sampled at t: (Q, step info).  Targets and plans come
         from the precomputed, validated paths, so the unchecked fast paths are
         used (`Target.trusted`, `OperationalSpaceController._command`)."""
-        i = min(int(round(t / self.scenario.control_period)), len(self.t_ctrl) - 1)
+        i = min(int(t * self._rate + 0.5), self._last)
         c = self.controller
         if c._kernel is not None:
             Q = c._command_packed(q, nu, self._packed[i])
         else:
             Q = c._command_numpy(q, nu, self._targets[i], self._plans[i])
-        Q_demand, error = c.last_demand()
+        Q_demand = c._info[1]
         # with a perfect model the NumPy plant's first RK4 stage reuses the controller's M, c + g
-        Mh = c._Mh if self.controller_robot is self.robot else None
-        return Q, _StepInfo(Q_demand, np.abs(Q_demand) > c.effort_limit, error,
-                            self._packed[i, :3], Mh)
+        Mh = c._Mh if self._same_robot else None
+        # saturated: clipped, |Q_demand| > limit  (Q = clip(Q_demand) differs from it)
+        return Q, _StepInfo(Q_demand, Q != Q_demand, c._error, self._packed[i, :3], Mh)
 
     def run(self, *, integrator=None, progress=None, stability=True, compiled=None):
         """SimulationResult of the scenario (`compiled`: see `simulate`)."""

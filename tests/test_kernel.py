@@ -192,4 +192,7 @@ def test_demo_run_without_friction_equals_numpy():
     assert a.status == b.status == "completed"
     close(a.q, b.q, 1e-9)
     close(a.Q, b.Q, 1e-8)
+    # the tool poses: one compiled call (a) against Pinocchio's Python loop (b)
+    close(a.tool_position, b.tool_position, 1e-9)
+    close(a.tool_rotation, b.tool_rotation, 1e-9)
     assert a.position_error.max() < 5e-3
