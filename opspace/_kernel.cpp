@@ -28,6 +28,7 @@
 #include <boost/python.hpp>
 
 #include <cmath>
+#include <stdexcept>
 #include <vector>
 
 namespace bp = boost::python;
@@ -96,6 +97,63 @@ class Rolling {
   std::vector<double> cN_;
 };
 
+// The reduction of the differential-drive base, S = [A 0; I₂ 0; 0 I] (the
+// planar root's chassis-frame twist (v_x, v_y, ω) = A φ̇ from the wheel rates;
+// wheels and arm map to themselves: `MobileManipulator._reduction_map`), used
+// by blocks instead of dense products:  Sᵀ M S, Sᵀ f, S ν, J S.
+class Reduction {
+ public:
+  explicit Reduction(const MatrixXd& S) : nv_(S.cols()), na_(S.cols() - 2) {
+    const bool shape = S.rows() == nv_ + 3 && nv_ >= 2;
+    if (!shape || !S.bottomRows(nv_).isIdentity(0.0) || !S.topRightCorner(3, na_).isZero(0.0))
+      throw std::invalid_argument("S must be [A 0; I] with A (3, 2): the planar root "
+                                  "followed by the wheels and the arm");
+    A_ = S.topLeftCorner<3, 2>();
+  }
+
+  // Mr = Sᵀ M S (symmetric) from the upper triangle of the full M (CRBA's)
+  template <class Out>
+  void mass(const MatrixXd& M, Out&& Mr) const {
+    const Eigen::Index na = na_;
+    const Eigen::Matrix3d Mbb = M.topLeftCorner<3, 3>().selfadjointView<Eigen::Upper>();
+    const Eigen::Matrix2d Mww = M.block<2, 2>(3, 3).selfadjointView<Eigen::Upper>();
+    const Eigen::Matrix2d C = A_.transpose() * M.block<3, 2>(0, 3);       // Aᵀ M_bw
+    Mr.template topLeftCorner<2, 2>() = A_.transpose() * Mbb * A_ + C + C.transpose() + Mww;
+    Mr.topRightCorner(2, na).noalias() = A_.transpose() * M.block(0, 5, 3, na);
+    Mr.topRightCorner(2, na) += M.block(3, 5, 2, na);
+    Mr.bottomRightCorner(na, na).template triangularView<Eigen::Upper>() =
+        M.bottomRightCorner(na, na);
+    Mr.template triangularView<Eigen::StrictlyLower>() = Mr.transpose();
+  }
+
+  // Sᵀ f for a full generalized force f (nv + 3)
+  template <class In, class Out>
+  void force(const In& f, Out&& out) const {
+    out.template head<2>().noalias() = A_.transpose() * f.template head<3>();
+    out.template head<2>() += f.template segment<2>(3);
+    out.tail(na_) = f.tail(na_);
+  }
+
+  // S ν
+  template <class Out>
+  void velocity(CRefV nu, Out&& v) const {
+    v.template head<3>().noalias() = A_ * nu.head<2>();
+    v.tail(nv_) = nu;
+  }
+
+  // one row of J S from a row of the full Jacobian
+  template <class In, class Out>
+  void jacobian_row(const In& j, Out&& out) const {
+    out.template head<2>().noalias() = j.template head<3>() * A_;
+    out.template head<2>() += j.template segment<2>(3);
+    out.tail(na_) = j.tail(na_);
+  }
+
+ private:
+  Eigen::Index nv_, na_;
+  Eigen::Matrix<double, 3, 2> A_;
+};
+
 // Forward dynamics of the reduced coordinates and the RK4 / Euler steps.
 class Plant {
  public:
@@ -106,8 +164,8 @@ class Plant {
   Plant(const MatrixXd& S, const VectorXd& free, const VectorXd& coulomb,
         const VectorXd& viscous, bool friction, const MatrixXd& A, const MatrixXd& casters,
         double c_rr, double r)
-      : S_(S), St_(S.transpose()), coulomb_(coulomb), viscous_(viscous),
-        friction_(friction), rolling_model_(A, casters, c_rr, r) {
+      : S_(S), red_(S), coulomb_(coulomb), viscous_(viscous), friction_(friction),
+        rolling_model_(A, casters, c_rr, r) {
     const Eigen::Index nv = S.cols();
     for (Eigen::Index i = 0; i < nv; ++i)
       if (free[i] != 0.0) free_.push_back(static_cast<int>(i));
@@ -117,7 +175,6 @@ class Plant {
     dq_.resize(S.rows());
     rhs_.resize(nv);
     Mr_.resize(nv, nv);
-    Mfull_.resize(S.rows(), S.rows());
     a2_.resize(nv);
     a3_.resize(nv);
     a4_.resize(nv);
@@ -133,12 +190,12 @@ class Plant {
 
   // ν̇ into out at (q, ν) under Q; false when M (its free block) is not PD.
   bool accel(const Model& model, Data& data, CRefV q, CRefV nu, CRefV Q, RefV out) {
-    v_.noalias() = S_ * nu;
+    red_.velocity(nu, v_);
     pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);
-    Mfull_ = data.M.selfadjointView<Eigen::Upper>();
-    Mr_.noalias() = St_ * Mfull_ * S_;
+    red_.mass(data.M, Mr_);
     pinocchio::nonLinearEffects(model, data, q, v_);
-    rhs_.noalias() = Q - St_ * data.nle;
+    red_.force(data.nle, rhs_);
+    rhs_ = Q - rhs_;
     if (friction_) {
       for (Eigen::Index i = 0; i < rhs_.size(); ++i)
         rhs_[i] -= coulomb_[i] * sign(nu[i]) + viscous_[i] * nu[i];
@@ -224,13 +281,14 @@ class Plant {
     q = qs_;
   }
 
-  MatrixXd S_, St_;
+  MatrixXd S_;
+  Reduction red_;
   VectorXd coulomb_, viscous_;
   bool friction_, rolling_, all_free_;
   std::vector<int> free_;
   Rolling rolling_model_;
   VectorXd v_, dq_, rhs_, qs_, a2_, a3_, a4_, nu2_, nu3_, nu4_;
-  MatrixXd Mr_, Mfull_;
+  MatrixXd Mr_;
   Eigen::LLT<MatrixXd> llt_;
 };
 
@@ -246,7 +304,7 @@ class Controller {
              const VectorXd& viscous, const VectorXd& limit, const MatrixXd& A,
              const MatrixXd& casters, const VectorXd& rows, const VectorXd& flags,
              const VectorXd& scalars)
-      : S_(S), St_(S.transpose()), GG_(GG), q0_(q0), coulomb_(coulomb), viscous_(viscous),
+      : red_(S), GG_(GG), q0_(q0), coulomb_(coulomb), viscous_(viscous),
         limit_(limit), rolling_model_(A, casters, scalars[4], scalars[0]) {
     for (Eigen::Index i = 0; i < rows.size(); ++i) rows_.push_back(static_cast<int>(rows[i]));
     fid_ = static_cast<pinocchio::FrameIndex>(flags[0]);
@@ -298,15 +356,14 @@ class Controller {
     o += 6 + 2 * k;
     MapR J(o, k, nv);
 
-    v_.noalias() = S_ * nu;
+    red_.velocity(nu, v_);
     pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);
-    Mfull_ = data.M.selfadjointView<Eigen::Upper>();
-    M.noalias() = St_ * Mfull_ * S_;
+    red_.mass(data.M, M);
     J6_.setZero();
     pinocchio::getFrameJacobian(model, data, fid_, pinocchio::LOCAL_WORLD_ALIGNED, J6_);
-    for (Eigen::Index i = 0; i < k; ++i) J.row(i).noalias() = J6_.row(rows_[size_t(i)]) * S_;
+    for (Eigen::Index i = 0; i < k; ++i) red_.jacobian_row(J6_.row(rows_[size_t(i)]), J.row(i));
     pinocchio::nonLinearEffects(model, data, q, v_);
-    h.noalias() = St_ * data.nle;
+    red_.force(data.nle, h);
     pinocchio::forwardKinematics(model, data, q, v_, zero_);
     const Eigen::Matrix<double, 6, 1> acc =
         pinocchio::getFrameClassicalAcceleration(model, data, fid_, pinocchio::LOCAL_WORLD_ALIGNED)
@@ -404,7 +461,8 @@ class Controller {
     return !(eps2_ > 0.0 && LB.leftCols(k).trace() * eps2_ > 1.0);
   }
 
-  MatrixXd S_, St_, GG_;
+  Reduction red_;
+  MatrixXd GG_;
   VectorXd q0_, coulomb_, viscous_, limit_;
   Rolling rolling_model_;
   std::vector<int> rows_;
@@ -412,7 +470,7 @@ class Controller {
   bool whole_body_, angular_, posture_, friction_, rolling_;
   double r_, b_, kw_, vs_, eps2_;
   Eigen::Index k_, nv_, n_arm_;
-  MatrixXd J6_, Mfull_, rhs_, Y_, JY_, eye_;
+  MatrixXd J6_, rhs_, Y_, JY_, eye_;
   VectorXd w_, zero_, v_, Jnu_, bvec_, M_nd0_, fe_, nu_dot_;
   Eigen::LLT<MatrixXd> llt_, task_llt_;
 };
