@@ -132,7 +132,8 @@ class SimulationResult:
         out = {"status": self.status, "message": self.message,
                "duration": _q(float(t[-1] - t[0]), "s"), "samples": _q(len(t), "1"),
                "step": _q(self.dt, "s"), "control_period": _q(self.control_period, "s"),
-               "integrator": self.integrator, "efforts": {}}
+               "integrator": self.integrator, "loop": self.extra.get("loop", "numpy"),
+               "efforts": {}}
         for i, name in enumerate(self.coordinate_names):
             unit = "N·m" if i < 2 or not self.extra.get("prismatic", {}).get(name) else "N"
             out["efforts"][name] = {
@@ -415,7 +416,8 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
         robot_payload_end = robot.payload
     picked = next((e.payload for e in events if e.kind == "pick"), robot_payload_end)
     result = rec.result(robot, status, message, dt, control_period, integrator,
-                        stability=stability, end_payload=picked)
+                        stability=stability, end_payload=picked,
+                        loop="compiled" if kernel is not None else "numpy")
     if status != "completed":
         raise SimulationError(message, time=t, cause=message, result=result)
     if progress:
@@ -498,7 +500,7 @@ class _Recorder:
         return self.nu_dot[i]
 
     def result(self, robot, status, message, dt, control_period, integrator, *, stability,
-               end_payload):
+               end_payload, loop):
         n = self.i
         sl = slice(0, n)
         if self.table is None:
@@ -527,7 +529,7 @@ class _Recorder:
             tool_rotation=rot, target_position=self.target[sl].copy(), error=err, status=status,
             message=message, dt=dt, control_period=control_period, integrator=integrator,
             coordinate_names=tuple(robot.coordinate_names), effort_limit=robot.effort_limit.copy(),
-            stability=track, extra={"prismatic": prismatic})
+            stability=track, extra={"prismatic": prismatic, "loop": loop})
 
 
 def _stability(robot, qs, nus, nu_dots, Qs, payload, end_payload):

@@ -190,9 +190,26 @@ def test_demo_run_without_friction_equals_numpy():
     a = ScenarioRun(sc, compiled=True).run(stability=False)
     b = ScenarioRun(sc, compiled=False).run(stability=False)
     assert a.status == b.status == "completed"
+    assert (a.summary()["loop"], b.summary()["loop"]) == ("compiled", "numpy")
     close(a.q, b.q, 1e-9)
     close(a.Q, b.Q, 1e-8)
     # the tool poses: one compiled call (a) against Pinocchio's Python loop (b)
     close(a.tool_position, b.tool_position, 1e-9)
     close(a.tool_rotation, b.tool_rotation, 1e-9)
     assert a.position_error.max() < 5e-3
+
+
+
+@needs_kernel
+def test_a_kernel_built_for_another_pinocchio_is_not_used(monkeypatch):
+    # the binary interface may differ between Pinocchio versions: a version
+    # mismatch falls back to the NumPy loop, with a warning saying why
+    monkeypatch.setattr(opspace.model.pin, "__version__", "0.0.0")
+    _compiled._module.cache_clear()
+    try:
+        with pytest.warns(RuntimeWarning, match="built for Pinocchio"):
+            assert not _compiled.available()
+    finally:
+        monkeypatch.undo()
+        _compiled._module.cache_clear()
+    assert _compiled.available()

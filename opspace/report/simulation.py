@@ -23,7 +23,8 @@ def simulation_text(run, result, *, compare=None):
     sc = run.scenario
     s = result.summary()
     lines = [f"{sc.name}: {result.status} ({s['duration']['value']:.2f} s simulated, "
-             f"{result.integrator}, step {result.dt * 1e3:g} ms, control {1 / result.control_period:g} Hz)"]
+             f"{result.integrator}, step {result.dt * 1e3:g} ms, control {1 / result.control_period:g} Hz, "
+             f"{s['loop']} loop)"]
     e = s.get("tool_position_error")
     if e:
         lines.append(f"tool position error: RMS {e['rms']['value'] * 1e3:.2f} mm, peak "
