@@ -6,7 +6,8 @@ The kernel is built against the Pinocchio, eigenpy and Boost.Python of the
 no C++ compiler is found, or the build fails, the wheel is pure Python and
 `opspace.simulate` runs its NumPy reference loop (slower, same results).
 ``OPSPACE_NO_KERNEL=1`` skips the build; ``OPSPACE_REQUIRE_KERNEL=1`` makes a
-failed build an error (CI sets it).
+failed build an error (CI sets it).  A wheel built from a checkout also leaves
+a copy of the module in the checkout's opspace/ (for tests run from there).
 """
 
 from __future__ import annotations
@@ -82,3 +83,10 @@ class KernelBuildHook(BuildHookInterface):
         build_data["infer_tag"] = True
         if not editable:
             build_data["force_include"][str(target)] = f"opspace/{target.name}"
+            # a copy beside the sources too: `python -m pytest` in the checkout puts
+            # the checkout first on sys.path, and its opspace should be compiled as
+            # well (the copy is ignored by git and not packed; see pyproject.toml)
+            try:
+                shutil.copy2(target, root / "opspace" / target.name)
+            except OSError:
+                pass
