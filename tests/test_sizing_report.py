@@ -9,6 +9,11 @@ import re
 import numpy as np
 import pytest
 
+try:
+    import tomllib
+except ImportError:                  # Python 3.10
+    import tomli as tomllib
+
 import opspace
 from opspace.report import write_sizing_report
 from conftest import DEMO, run_cli_module
@@ -56,6 +61,14 @@ def test_summary_figures_finite_with_units(demo_report):
     assert count > 200
     assert doc["status"] in ("pass", "fail")
     assert doc["cautions"] and any("safety standards" in c for c in doc["cautions"])
+    # the recommended drive's masses per wheel, as the catalogue file gives them
+    rec = doc["recommended"]
+    cat = tomllib.loads(DEMO.with_name("drives.toml").read_text())
+    motor = next(m for m in cat["motor"] if m["name"] == rec["motor"])
+    gear = next(g for g in cat["gearbox"] if g["name"] == rec["gearbox"])
+    assert rec["motor_mass"] == {"value": motor["mass"], "unit": "kg"}
+    assert rec["gearbox_mass"] == {"value": gear["mass"], "unit": "kg"}
+    assert rec["drive_mass"]["value"] == pytest.approx(motor["mass"] + gear["mass"])
 
 
 def test_html_is_self_contained(demo_report):

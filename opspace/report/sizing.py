@@ -139,6 +139,15 @@ def sizing_summary(result):
     if rec is not None:
         out["recommended"] = {"motor": rec[1].motor, "gearbox": rec[1].gearbox,
                               "ratio": _q(rec[1].ratio, "1")}
+        # per wheel, when the catalogue gives the masses (the sweeps' size figure)
+        m_motor = result.catalogue.motor(rec[1].motor).mass
+        m_gear = result.catalogue.gearbox(rec[1].gearbox).mass
+        if m_motor is not None:
+            out["recommended"]["motor_mass"] = _q(m_motor, "kg")
+        if m_gear is not None:
+            out["recommended"]["gearbox_mass"] = _q(m_gear, "kg")
+        if m_motor is not None and m_gear is not None:
+            out["recommended"]["drive_mass"] = _q(m_motor + m_gear, "kg")
     if result.worst_torque is not None:
         names, units = robot.arm_joint_names, robot.arm_units
         out["worst_case"] = {"peak_wheel_torque": result.worst_torque.to_dict(names, units),
