@@ -318,6 +318,8 @@ class OperationalSpaceController:
     info : CommandInfo or None   what the last `command` did (saturation per coordinate)
     k : int, axes : tuple[str], frame : str, mode : str, effort_limit : ndarray (nv,)
 
+    The parameters are fixed at construction (the compiled command holds a
+    copy): make a new controller to change gains, limits or options.
     `command` validates its inputs; a simulation's inner loop that has already
     checked them may call `_command(q, nu, target, plan)` directly.  One
     controller owns a Pinocchio Data and work buffers: do not share it between
@@ -355,6 +357,7 @@ class OperationalSpaceController:
         if limit.shape != (robot.nv,) or np.any(np.isnan(limit)) or np.any(limit <= 0.0):
             raise ValueError(f"`effort_limit` must have shape ({robot.nv},) with entries > 0 "
                              f"(inf for none), got {limit}")
+        limit.setflags(write=False)
         self.effort_limit = limit
         self.damping = _threshold(damping)
         self._data = robot.model.createData()
@@ -409,6 +412,8 @@ class OperationalSpaceController:
     def _make_kernel(self, compiled):
         """The compiled command (`_kernel.Controller`) and its output views, or None."""
         from . import _compiled
+        if not (compiled is None or compiled is True or compiled is False):
+            raise ValueError(f"`compiled` must be None, True or False, got {compiled!r}")
         robot = self.robot
         # the kernel's posture error is q₀ − q[6:] (no continuous arm joint)
         usable = _compiled.available() and (self.posture is None or self._arm_slice)

@@ -308,6 +308,8 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     ------
     SimulationError (with `.result`, the partial run) on a blow-up
     """
+    if not (compiled is None or compiled is True or compiled is False):
+        raise ValueError(f"`compiled` must be None, True or False, got {compiled!r}")
     if integrator not in ("rk4", "euler"):
         raise ValueError(f"`integrator` must be 'rk4' or 'euler', got {integrator!r}")
     if not (math.isfinite(dt) and dt > 0):

@@ -169,6 +169,13 @@ def test_command_returns_its_own_array(demo, rng):
     np.testing.assert_array_equal(Q1, kept)
 
 
+def test_compiled_must_be_none_true_or_false(demo):
+    with pytest.raises(ValueError, match="`compiled` must be None, True or False"):
+        OperationalSpaceController(demo, compiled="yes")
+    with pytest.raises(ValueError, match="`compiled` must be None, True or False"):
+        simulate(demo, None, duration=0.01, q0=demo.configuration(), compiled=1.0)
+
+
 def test_compiled_true_without_the_kernel_is_refused(demo, monkeypatch):
     monkeypatch.setattr(_compiled, "available", lambda: False)
     monkeypatch.setattr(_compiled, "kernel_plant", lambda *a: None)
