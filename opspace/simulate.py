@@ -321,6 +321,9 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     n_ctrl = int(round(ratio))
     if n_ctrl < 1 or abs(ratio - n_ctrl) > 1e-9 * ratio:
         raise ValueError(f"`control_period` {control_period} s must be a multiple of dt {dt} s")
+    if isinstance(record_every, bool) or not isinstance(record_every, (int, np.integer)) \
+            or record_every < 1:
+        raise ValueError(f"`record_every` must be a whole number >= 1, got {record_every!r}")
     n_steps = int(round(duration / dt))
     q = np.array(q0, dtype=float)
     if q.shape != (robot.model.nq,):

@@ -220,3 +220,33 @@ def test_a_kernel_built_for_another_pinocchio_is_not_used(monkeypatch):
         monkeypatch.undo()
         _compiled._module.cache_clear()
     assert _compiled.available()
+
+
+@needs_kernel
+def test_hold_and_record_options_on_both_loops(demo):
+    # a controller sampled every 2 steps (zero-order hold) and every 5th step
+    # kept: both loops agree, the held effort is constant over its period, and
+    # the thinned record is the full one taken every 5th step
+    q0 = demo.configuration(arm="carry")
+    nu0 = np.array([1.0, 0.8, 0.02, 0.2, 0.1, -0.1, 0.2, 0.1, 0.3])
+    g0 = opspace.joint_space(demo, q0, np.zeros(demo.nv)).g
+
+    amp = np.array([1.5, 1.2, 40.0, 6.0, 25.0, 12.0, 3.0, 2.0, 0.5])
+
+    def control(t, q, nu):
+        return g0 + amp * np.sin(2 * np.pi * 5.0 * t), None
+
+    kw = dict(duration=0.2, q0=q0, nu0=nu0, dt=1e-3, control_period=2e-3, friction=False,
+              stability=False)
+    a = simulate(demo, control, compiled=True, **kw)
+    b = simulate(demo, control, compiled=False, **kw)
+    close(a.q, b.q, 1e-12)
+    close(a.nu, b.nu, 1e-11)
+    np.testing.assert_array_equal(a.Q[0:-1:2], a.Q[1::2])
+    assert not np.array_equal(a.Q[0], a.Q[2])
+    c = simulate(demo, control, compiled=True, record_every=5, **kw)
+    np.testing.assert_allclose(c.t, np.arange(41) * 5e-3, rtol=0, atol=1e-12)
+    np.testing.assert_array_equal(c.q, a.q[::5])
+    np.testing.assert_array_equal(c.nu_dot, a.nu_dot[::5])
+    with pytest.raises(ValueError, match="record_every"):
+        simulate(demo, control, record_every=0, **kw)
