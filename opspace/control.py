@@ -258,6 +258,7 @@ class CommandInfo:
     a_star : ndarray (k,)       commanded task acceleration, m/s², rad/s²
     F : ndarray (k,)            task force Λ a* + μ + p (+ Γ ν̇_w*), N, N·m
     damped : bool               the task inertia was damped (near a singularity)
+    target_position : (3,)      p_d of the call, m, world (a simulation records it)
     """
 
     Q: np.ndarray
@@ -268,6 +269,7 @@ class CommandInfo:
     a_star: np.ndarray
     F: np.ndarray
     damped: bool
+    target_position: np.ndarray | None = None
 
     @property
     def any_saturated(self):
@@ -277,6 +279,8 @@ class CommandInfo:
         out = {name: getattr(self, name).tolist() for name in
                ("Q", "Q_demand", "saturated", "error", "velocity_error", "a_star", "F")}
         out["damped"] = self.damped
+        out["target_position"] = (None if self.target_position is None
+                                  else self.target_position.tolist())
         return out
 
 
@@ -524,6 +528,7 @@ class OperationalSpaceController:
         if kernel is None or kernel[0](kernel[1], kernel[2], q, nu, x, kernel[3]):
             return self._command_numpy(q, nu, *self._unpack(x))
         self._info, self._Mh, self._error = kernel[4], kernel[5], kernel[6]
+        self._target_position = x[:3]
         if self._error is None:
             self._error = kernel[4][8][:6][self._rows]
         return kernel[4][0]
@@ -627,6 +632,7 @@ class OperationalSpaceController:
         self._info = (Q_sent, Q, LB, Jdot_nu, ga, nd0, damped, J, z)
         self._Mh = (M, h)      # the reduced M and c + g at this (q, ν), for a simulator to reuse
         self._error = z[:6][self._rows]
+        self._target_position = target.position
         return Q_sent
 
     def _posture_error(self, q):
@@ -660,7 +666,8 @@ class OperationalSpaceController:
         return CommandInfo(Q=Q.copy(), Q_demand=Q_demand.copy(),
                            saturated=np.abs(Q_demand) > self.effort_limit,
                            error=z[:6][self._rows].copy(), velocity_error=z[6:6 + k].copy(),
-                           a_star=a_star, F=F, damped=bool(damped))
+                           a_star=a_star, F=F, damped=bool(damped),
+                           target_position=np.array(self._target_position, dtype=float))
 
     # ------------------------------------------------------------- inspection
     def task_space(self, q, nu):

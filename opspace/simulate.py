@@ -280,8 +280,9 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     control : callable (t, q, ν) -> (Q, info) or None
         The controller, sampled every `control_period` (zero-order hold); `info`
         may be None or a `CommandInfo` (Q_demand, saturation, error, target).
-        None: no input (Q = 0).  See `opspace.control.OperationalSpaceController`
-        and `tracking_control` for the usual one.
+        None: no input (Q = 0).  The usual one wraps
+        `opspace.control.OperationalSpaceController.command` and returns its
+        `info` (which carries the target position the run records).
     duration : s;  q0 : (nq,);  nu0 : (nv,) default zeros
     dt : integration step, s;  control_period : s, a multiple of dt (default dt)
     integrator : "rk4" | "euler"

@@ -250,3 +250,44 @@ def test_hold_and_record_options_on_both_loops(demo):
     np.testing.assert_array_equal(c.nu_dot, a.nu_dot[::5])
     with pytest.raises(ValueError, match="record_every"):
         simulate(demo, control, record_every=0, **kw)
+
+
+@needs_kernel
+def test_a_continuous_joint_and_a_prismatic_joint_on_both_loops(tmp_path):
+    # an arm unlike the demo's: a continuous joint (two configuration entries,
+    # cos and sin) after a prismatic one; the kernel integrates on the manifold
+    # with Pinocchio as the NumPy loop does, and the controller (posture on a
+    # continuous joint: the NumPy command) drives both plants alike
+    from conftest import make_robot, urdf, urdf_joint, urdf_link
+    arm = urdf(
+        urdf_link("root"),
+        urdf_joint("slide", "prismatic", "root", "carriage", axis=(0, 0, 1), lower=0.0,
+                   upper=0.5, effort=400.0, damping=2.0),
+        urdf_link("carriage", 3.0, (0, 0, 0.05), (0.02, 0.02, 0.02, 0, 0, 0)),
+        urdf_joint("spin", "continuous", "carriage", "link", xyz=(0, 0, 0.1), axis=(0, 0, 1),
+                   effort=50.0, friction=0.3),
+        urdf_link("link", 1.2, (0.2, 0, 0), (0.004, 0.02, 0.02, 0, 0, 0)),
+        urdf_joint("tool_joint", "fixed", "link", "tool", xyz=(0.35, 0, 0)),
+        urdf_link("tool"))
+    robot = make_robot(tmp_path, arm)
+    assert robot.model.nq == robot.model.nv + 2          # planar root + continuous joint
+    q0 = robot.configuration(arm=[0.2, 0.5])
+    X0 = robot.frame_placement(q0, robot.tool_frame_id)
+    runs = []
+    for compiled in (True, False):
+        ctrl = OperationalSpaceController(robot, axes=("x", "z"), mode="arm_only",
+                                          posture=[0.2, 0.5], compiled=None)
+        assert ctrl._kernel is None                    # continuous joint under a posture
+
+        def control(t, q, nu):
+            target = Target(X0.translation + [0.1 * t, 0.0, 0.05 * t], None, [0.1, 0, 0.05])
+            return ctrl.command(q, nu, target, base=BasePlan(0.1)), ctrl.info
+
+        runs.append(simulate(robot, control, duration=0.5, q0=q0, dt=1e-3, friction=False,
+                             stability=False, compiled=compiled))
+    a, b = runs
+    assert a.extra["loop"] == "compiled" and b.extra["loop"] == "numpy"
+    close(a.q, b.q, 1e-9)
+    # the task rows (x, z) are tracked; the tool's y is free here
+    assert np.abs(a.error).max() < 5e-3
+    assert np.ptp(a.q[:, 0]) > 0.03 and np.ptp(a.q[:, 6]) > 0.02     # base and slide moved
