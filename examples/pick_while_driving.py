@@ -5,8 +5,9 @@
 
 Runs the bundled scenario models/marmot/pick.toml (invented) with the perfect
 model, then again with a 10 % payload-mass error in the controller's model,
-prints the tracking and effort figures, and writes the time series, figures
-and the animation.  `--quick` skips the second run and the animation.
+prints the tracking and effort figures, and writes the time series, figures,
+the animation and report.html (one page with all of them).  `--quick` skips
+the second run and the animation.
 
 Simulation results are model estimates: verify on hardware, and follow the
 applicable safety standards for mobile robots and manipulators.

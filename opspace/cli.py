@@ -184,7 +184,8 @@ def build_parser():
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_size)
     p = sub.add_parser("simulate", help="simulate a scenario (e.g. a pick while driving) and "
-                                        "write figures, an animation and the time series")
+                                        "write figures, an animation, a report page and the "
+                                        "time series")
     p.add_argument("scenario", nargs="?", help="scenario TOML (default: the bundled demo pick)")
     p.add_argument("-o", "--output", default="opspace-simulation",
                    help="output directory (default: ./opspace-simulation)")

@@ -335,3 +335,33 @@ def test_frames_from_result_places_the_arm_in_the_world(tmp_path):
     assert len(frames) <= 150 and frames[0]["t"] == 0.0 and frames[-1]["t"] == 10.0
     with pytest.raises(ValueError, match="`every`"):
         frames_from_result(robot, long, every=0)
+
+
+def test_simulation_page_is_self_contained(tmp_path):
+    # opspace simulate's report.html: every figure embedded, the animation too,
+    # the effort table names every coordinate, the cautions are on the page
+    import io
+    import re
+
+    from PIL import Image
+
+    from opspace.description.scenario import load_scenario
+    from opspace.report.simulation import simulation_html, write_simulation_outputs
+    from opspace.simulate import ScenarioRun
+    from conftest import DEMO
+    run = ScenarioRun(load_scenario(DEMO.with_name("pick.toml")))
+    result = run.run()
+    paths = write_simulation_outputs(run, result, tmp_path, animate=False)  # GIF: tested above
+    html = paths["report.html"].read_text(encoding="utf-8")
+    images = re.findall(r'<img[^>]*src="([^"]+)"', html)
+    assert len(images) == 4 and all(src.startswith("data:image/png;base64,") for src in images)
+    assert "http://" not in html and "https://" not in html
+    for name in result.coordinate_names:
+        assert f">{name}<" in html
+    for needle in ("COMPLETED", "Efforts against their limits", "Stability", "Assumptions",
+                   "plastic catch", "safety standards"):
+        assert needle in html
+    gif = io.BytesIO()
+    Image.new("RGB", (2, 2)).save(gif, format="GIF")
+    html = simulation_html(run, result, [("pick.gif", gif.getvalue())])
+    assert 'src="data:image/gif;base64,' in html

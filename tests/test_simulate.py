@@ -280,7 +280,7 @@ def test_pick_example_quick(tmp_path):
     mod = runpy.run_path(str(REPO / "examples" / "pick_while_driving.py"))
     result = mod["main"](["--quick", "-o", str(tmp_path)])
     for name in ("run.csv", "summary.json", "summary.txt", "tracking_error.png", "efforts.png",
-                 "base_path.png"):
+                 "base_path.png", "report.html"):
         assert (tmp_path / name).is_file(), name
     assert result.status == "completed"
     assert not list(tmp_path.glob("*.part*"))

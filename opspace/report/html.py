@@ -1,7 +1,6 @@
 """A small, dependency-free builder for self-contained HTML pages: escaped
 text, tables, figures embedded as base64 PNG, a verdict banner, and one
-stylesheet.  Used by the sizing report (and later the sweep and simulation
-pages)."""
+stylesheet.  Used by the sizing, sweep and simulation pages."""
 
 from __future__ import annotations
 
@@ -70,8 +69,9 @@ class Page:
         lis = "".join(f"<li>{html.escape(t)}</li>" for t in texts)
         self.parts.append(f'<ul class="{cls}">{lis}</ul>')
 
-    def verdict(self, status, message):
-        cls = {"pass": "pass", "fail": "fail"}.get(status, "info")
+    def verdict(self, status, message, cls=None):
+        """A banner: STATUS — message; cls "pass", "fail" or "info" (default: by status)."""
+        cls = cls or {"pass": "pass", "fail": "fail"}.get(status, "info")
         self.parts.append(f'<div class="verdict {cls}"><b>{html.escape(status.upper())}</b> — '
                           f"{html.escape(message)}</div>")
 
@@ -97,10 +97,11 @@ class Page:
         self.parts.append(f"<table><thead><tr>{th}</tr></thead><tbody>{''.join(body)}"
                           f"</tbody></table>")
 
-    def figure(self, png, caption):
-        data = base64.b64encode(png).decode("ascii")
+    def figure(self, image, caption, mime="image/png"):
+        """An embedded image (bytes; PNG, or mime="image/gif" for an animation)."""
+        data = base64.b64encode(image).decode("ascii")
         self.parts.append(f'<figure><img alt="{html.escape(caption)}" '
-                          f'src="data:image/png;base64,{data}"><figcaption>'
+                          f'src="data:{mime};base64,{data}"><figcaption>'
                           f"{html.escape(caption)}</figcaption></figure>")
 
     def render(self):

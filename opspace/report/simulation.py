@@ -1,6 +1,7 @@
 """Outputs of `opspace simulate`: CSV and NPZ of the run, summary.json (each
-figure with its unit), a short text summary, the figures and the animation.
-Formats what `opspace.simulate` computed; no physics here."""
+figure with its unit), a short text summary, the figures, the animation and a
+self-contained HTML page of them all.  Formats what `opspace.simulate`
+computed; no physics here."""
 
 from __future__ import annotations
 
@@ -12,7 +13,20 @@ import numpy as np
 
 from .sizing import CAUTIONS, _finite
 
-__all__ = ["simulation_text", "write_simulation_outputs"]
+__all__ = ["SIMULATION_ASSUMPTIONS", "simulation_html", "simulation_text",
+           "write_simulation_outputs"]
+
+#: what the simulation assumes, for the page (opspace/simulate.py's docstring)
+SIMULATION_ASSUMPTIONS = (
+    "Rigid bodies; wheels roll without slip or side slip (the reduced, nonholonomic model); "
+    "the chassis stays on the ground (the ZMP and loads are checked afterwards, not fed back).",
+    "Friction: Coulomb f_C sign(ν) without stiction, viscous f_v ν, and rolling resistance "
+    "with the static contact loads of each step.",
+    "Pick: a soft, perfectly plastic catch of a payload at rest (generalized momentum kept); "
+    "release: the velocities are kept.",
+    "Efforts are clipped to their limits; the controller is sampled at its rate and its "
+    "output held (zero-order hold).",
+)
 
 
 def simulation_text(run, result, *, compare=None):
@@ -54,10 +68,98 @@ def simulation_text(run, result, *, compare=None):
     return "\n".join(lines)
 
 
+def simulation_html(run, result, images, *, compare=None):
+    """The HTML page (str) of a run: verdict, tracking, efforts against their
+    limits, stability, energy, the figures and the animation, the assumptions
+    and the cautions.  images: [(file name, bytes)] in the order to show."""
+    from .html import Page, fmt
+
+    sc, s = run.scenario, result.summary()
+    page = Page(f"opspace simulation: {sc.name}")
+    page.heading(f"Simulation: {sc.name}", 1)
+    page.para(f"scenario {sc.path.name}; robot {run.robot.description.name}; "
+              f"{s['duration']['value']:.2f} s, {result.integrator}, step "
+              f"{result.dt * 1e3:g} ms, control {1 / result.control_period:g} Hz, "
+              f"{s['loop']} loop", cls="meta")
+    if result.status == "completed":
+        e = s.get("tool_position_error")
+        sat = [n for n, v in s["efforts"].items() if v["saturated_share"]["value"] > 0]
+        message = "the run completed" + (
+            f"; tool position error RMS {e['rms']['value'] * 1e3:.2f} mm, peak "
+            f"{e['peak']['value'] * 1e3:.2f} mm" if e else "") + (
+            f"; effort limits reached by: {', '.join(sat) if sat else 'none'}")
+        page.verdict("completed", message, cls="fail" if sat else "pass")
+    else:
+        page.verdict("stopped", result.message, cls="fail")
+    page.caution(CAUTIONS)
+
+    page.heading("Tracking")
+    rows = []
+    e = s.get("tool_position_error")
+    if e:
+        rows.append(["tool position error (perfect model)", fmt(e["rms"]["value"] * 1e3),
+                     fmt(e["peak"]["value"] * 1e3), "mm"])
+    if compare is not None:
+        err, other = compare
+        c = other.summary().get("tool_position_error")
+        if c:
+            rows.append([f"with a {err:+.0%} payload-mass error in the controller",
+                         fmt(c["rms"]["value"] * 1e3), fmt(c["peak"]["value"] * 1e3), "mm"])
+    if rows:
+        page.table(["", "RMS", "peak", "unit"], rows)
+    else:
+        page.para("no task error was recorded (no controller information)")
+
+    page.heading("Efforts against their limits")
+    rows, classes = [], []
+    for name, v in s["efforts"].items():
+        lim = v["limit"]["value"]
+        share = v["saturated_share"]["value"]
+        use = v["peak"]["value"] / lim if lim else None
+        rows.append([name, fmt(v["peak"]["value"]), fmt(v["rms"]["value"]),
+                     fmt(lim), fmt(None if use is None else 100 * use, 3),
+                     fmt(100 * share, 3), v["peak"]["unit"]])
+        bad = share > 0 or (use is not None and use >= 1.0)
+        classes.append(["", "", "", "", "bad" if bad else "ok", "bad" if share > 0 else "", ""])
+    page.table(["coordinate", "peak", "RMS", "limit", "peak / limit %", "time saturated %",
+                "unit"], rows, classes=classes)
+    page.table(["wheel", "energy drawn"],
+               [[name, f"{fmt(v['value'])} J"] for name, v in s["wheel_energy_drawn"].items()])
+
+    if "min_tip_over_margin" in s:
+        page.heading("Stability")
+        m, u = s["min_tip_over_margin"]["value"], s["max_traction_use"]["value"]
+        page.table(["figure", "value", "limit"],
+                   [["least tip-over margin (ZMP to the support edge)", f"{fmt(m * 1e3)} mm",
+                     "> 0"],
+                    ["largest traction use (tyre force / friction limit)", fmt(u), "< 1"]],
+                   classes=[["", "ok" if m > 0 else "bad", ""],
+                            ["", "ok" if u < 1 else "bad", ""]])
+
+    page.heading("Figures")
+    captions = {
+        "tracking_error.png": "Tool position (and orientation) error over the run, with the "
+                              "pick and release instants.",
+        "efforts.png": "Efforts per coordinate with their limits.",
+        "base_path.png": "Base path in the plane with the robot outline at a few instants, the "
+                         "tool and its target.",
+        "support_zmp.png": "Support polygon, the ZMP over the run and the least margin.",
+        "pick.gif": "The robot from the side and from above during the run.",
+    }
+    for name, data in images:
+        page.figure(data, captions.get(name, name),
+                    mime="image/gif" if name.endswith(".gif") else "image/png")
+
+    page.heading("Assumptions")
+    page.items(SIMULATION_ASSUMPTIONS)
+    return page.render()
+
+
 def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True,
                              progress=None):
-    """Write run.csv, run.npz, summary.json, summary.txt, the figures (PNG) and
-    pick.gif into out_dir; files appear under their names only once complete.
+    """Write run.csv, run.npz, summary.json, summary.txt, the figures (PNG),
+    pick.gif and report.html (all of them on one self-contained page) into
+    out_dir; files appear under their names only once complete.
     compare: (payload_mass_error, SimulationResult) of a second run, or None.
 
     Returns dict name -> Path.
@@ -131,6 +233,11 @@ def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True
                                                payload_position=sc.payload_position,
                                                wheel_radius=robot.wheel_radius,
                                                half_track=robot.half_track, max_frames=90))
+    shown = [name for name, _ in figs] + (["pick.gif"] if animate else [])
+    images = [(name, paths[name].read_bytes()) for name in shown]
+    put("report.html", lambda p: p.write_text(simulation_html(run, result, images,
+                                                              compare=compare),
+                                              encoding="utf-8"))
     if progress:
         progress(len(figs) + 1, len(figs) + 1)
     return paths
