@@ -44,18 +44,20 @@ BASE_JOINT = "base_planar"
 WHEEL_JOINTS = ("wheel_right", "wheel_left")
 
 
-def load_robot(path):
+def load_robot(path, *, doc=None, urdf_text=None):
     """Load, validate and build a robot from its description TOML.
 
     Parameters
     ----------
     path : str or Path   robot description (see DESIGN.md / README reference)
+    doc, urdf_text :     its parsed content and the arm URDF's text, if already at
+                         hand (see `opspace.description.load_description`)
 
     Returns
     -------
     MobileManipulator
     """
-    return MobileManipulator(load_description(path))
+    return MobileManipulator(load_description(path, doc=doc, urdf_text=urdf_text))
 
 
 def _inertia(mass, com, values):

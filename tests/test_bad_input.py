@@ -8,7 +8,7 @@ import sys
 import pytest
 
 import opspace
-from conftest import REPO, base_doc, make_robot, two_link_urdf, write_toml
+from conftest import DEMO, REPO, base_doc, make_robot, two_link_urdf, write_toml
 
 
 def load(tmp_path, doc=None, urdf_text=None):
@@ -150,3 +150,24 @@ def test_cli_check_demo():
     for needle in ("reduced coordinates (9)", "wheel_right, wheel_left, lift", "side_reach",
                    "reflected rotor inertia per wheel", "model estimates"):
         assert needle in res.stdout
+
+
+def test_loaders_take_parsed_documents_as_the_files(tmp_path):
+    # the sweep hands the loaders parsed documents and the URDF's text: the
+    # result is the same as from the files, and messages still name the file
+    from opspace.description import read_toml
+    from opspace.description.catalogue import load_catalogue
+    robot_path = DEMO
+    doc = read_toml(robot_path)
+    urdf = (robot_path.parent / doc["robot"]["arm_urdf"]).read_text()
+    a = opspace.load_robot(robot_path)
+    b = opspace.load_robot(tmp_path / "robot.toml", doc=doc, urdf_text=urdf)   # no such file
+    assert a.model == b.model and a.total_mass() == b.total_mass()
+    cat = DEMO.with_name("drives.toml")
+    c1, c2 = load_catalogue(cat), load_catalogue(tmp_path / "drives.toml", doc=read_toml(cat))
+    assert (c1.motors, c1.gearboxes) == (c2.motors, c2.gearboxes) and c2.path.name == cat.name
+    bad = {**doc, "base": {**doc["base"], "mass": -1.0}}
+    with pytest.raises(opspace.ConfigError, match=r"^robot\.toml: \[base\] mass"):
+        opspace.load_robot(tmp_path / "robot.toml", doc=bad, urdf_text=urdf)
+    with pytest.raises(opspace.ConfigError, match="arm.urdf: URDF does not parse"):
+        opspace.load_robot(tmp_path / "robot.toml", doc=doc, urdf_text="<robot")

@@ -180,12 +180,13 @@ def _by_name(items, name, kind, path):
 # ---------------------------------------------------------------------------
 
 
-def load_catalogue(path):
+def load_catalogue(path, *, doc=None):
     """Read and validate a motor-and-gearbox catalogue TOML.
 
     Parameters
     ----------
     path : str or Path   the catalogue file
+    doc : dict or None   its parsed content, if already at hand (not read then)
 
     Returns
     -------
@@ -196,7 +197,7 @@ def load_catalogue(path):
     ConfigError   naming file, entry, key, value and expectation
     """
     path = Path(path)
-    doc = read_toml(path)
+    doc = read_toml(path) if doc is None else doc
     fname = path.name
     unknown = sorted(set(doc) - set(TOP_LEVEL))
     if unknown:

@@ -83,11 +83,12 @@ class DutyCycle:
     segments: tuple = field(default_factory=tuple)
 
 
-def load_duty_cycle(path, *, robot=None):
+def load_duty_cycle(path, *, robot=None, doc=None):
     """Read and validate a duty-cycle TOML.
 
     With `robot` (a MobileManipulator), cross-checks speeds against the base's
     top speed and arm poses against the description's [poses] and limits.
+    `doc`: the file's parsed content, if already at hand (not read then).
 
     Raises
     ------
@@ -95,7 +96,7 @@ def load_duty_cycle(path, *, robot=None):
                   expectation
     """
     path = Path(path)
-    doc = read_toml(path)
+    doc = read_toml(path) if doc is None else doc
     unknown = sorted(set(doc) - {"cycle", "segment"})
     if unknown:
         raise ConfigError(f"{path.name}: [{unknown[0]}] is not a known table "

@@ -154,12 +154,15 @@ TOP_LEVEL = ("robot", "base", "wheel", "drive", "mount", "ground", "payload",
              "arm_joint", "poses", "caster")
 
 
-def load_description(path):
+def load_description(path, *, doc=None, urdf_text=None):
     """Read and validate a robot description TOML and its arm URDF.
 
     Parameters
     ----------
     path : str or Path   the robot TOML file
+    doc : dict or None   its parsed content, if already at hand (the file is then
+                         not read; `path` names it in messages and places the URDF)
+    urdf_text : str or None   the arm URDF's text, likewise (its file is not read)
 
     Returns
     -------
@@ -170,7 +173,7 @@ def load_description(path):
     ConfigError   naming file, key, value and expectation
     """
     path = Path(path)
-    doc = read_toml(path)
+    doc = read_toml(path) if doc is None else doc
     name = path.name
     unknown = sorted(set(doc) - set(TOP_LEVEL))
     if unknown:
@@ -205,7 +208,7 @@ def load_description(path):
         payload = read_payload(Section(path, "payload", doc["payload"]))
 
     casters = _read_casters(path, doc.get("caster", []), base)
-    arm_model = load_arm_urdf(arm_urdf, where=f"{name}: [robot] arm_urdf")
+    arm_model = load_arm_urdf(arm_urdf, where=f"{name}: [robot] arm_urdf", text=urdf_text)
     _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
     arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
     poses = _read_poses(path, doc.get("poses", {}), arm_model)
@@ -291,15 +294,19 @@ def _read_casters(path, entries, base):
     return tuple(casters)
 
 
-def load_arm_urdf(urdf_path, *, where):
-    """Parse the arm URDF with Pinocchio (fixed base) and check its inertias."""
+def load_arm_urdf(urdf_path, *, where, text=None):
+    """Parse the arm URDF with Pinocchio (fixed base) and check its inertias;
+    `text`: the URDF's content (the file at urdf_path, which names it, is then
+    not read)."""
     import pinocchio as pin
 
     urdf_path = Path(urdf_path)
-    if not urdf_path.is_file():
-        raise ConfigError(f"{where}: URDF file not found: {urdf_path}")
+    if text is None:
+        if not urdf_path.is_file():
+            raise ConfigError(f"{where}: URDF file not found: {urdf_path}")
+        text = urdf_path.read_text(encoding="utf-8")
     try:
-        arm = pin.buildModelFromUrdf(str(urdf_path))
+        arm = pin.buildModelFromXML(text)
     except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
         first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
         raise ConfigError(f"{urdf_path.name}: URDF does not parse ({first})") from None
@@ -311,15 +318,15 @@ def load_arm_urdf(urdf_path, *, where):
             raise ConfigError(
                 f"{urdf_path.name}: joint '{arm.names[jid]}' has {joint.nv} degrees "
                 f"of freedom; only revolute, continuous and prismatic joints are supported")
-    _check_urdf_inertias(urdf_path)
+    _check_urdf_inertias(urdf_path, text)
     return arm
 
 
-def _check_urdf_inertias(urdf_path):
+def _check_urdf_inertias(urdf_path, text):
     """Mass > 0 and a physical inertia for every <inertial> of the URDF."""
     import xml.etree.ElementTree as ET
 
-    root = ET.parse(urdf_path).getroot()
+    root = ET.fromstring(text)
     for link in root.iter("link"):
         inertial = link.find("inertial")
         if inertial is None:

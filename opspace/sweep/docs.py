@@ -1,10 +1,9 @@
 """The base documents of a sweep and their per-point copies.
 
 A design point is the base robot description, duty cycle and catalogue with
-some values replaced.  The loaders of `opspace.description` read files, so a
-point's documents are written as TOML (tomli-w) into a private temporary
-directory, under the base files' own names (messages and summary.json then
-read exactly as for the user's files), loaded, and the directory removed.
+some values replaced.  The loaders of `opspace.description` take a point's
+parsed documents (and the URDF's text) directly, under the base files' own
+names, so messages and summary.json read exactly as for the user's files.
 
 `Documents` travels to the workers (parsed TOML tables and the URDF text: a
 few kB), so a worker needs no access to the user's files.  Each worker keeps
@@ -19,7 +18,6 @@ import copy
 import hashlib
 import json
 import os
-import tempfile
 from collections import OrderedDict
 from dataclasses import dataclass
 from pathlib import Path
@@ -137,30 +135,19 @@ def apply(base_docs, assignments):
 
 
 # ------------------------------------------------------------------ loading
-def _write(directory, name, doc):
-    import tomli_w
-
-    path = Path(directory) / name
-    path.write_text(tomli_w.dumps(doc), encoding="utf-8")
-    return path
-
-
 def load_robot_doc(documents, doc):
-    """A MobileManipulator from an effective robot document (via a temp file)."""
+    """A MobileManipulator from an effective robot document."""
     from ..model import load_robot
 
     doc = dict(doc)
     doc["robot"] = dict(doc.get("robot", {}), arm_urdf=documents.urdf_name)
-    with tempfile.TemporaryDirectory(prefix="opspace-sweep-") as tmp:
-        (Path(tmp) / documents.urdf_name).write_text(documents.urdf_text, encoding="utf-8")
-        return load_robot(_write(tmp, documents.names["robot"], doc))
+    return load_robot(Path(documents.names["robot"]), doc=doc, urdf_text=documents.urdf_text)
 
 
 def load_catalogue_doc(documents, doc):
     from ..description.catalogue import load_catalogue
 
-    with tempfile.TemporaryDirectory(prefix="opspace-sweep-") as tmp:
-        return load_catalogue(_write(tmp, documents.names["catalogue"], doc))
+    return load_catalogue(Path(documents.names["catalogue"]), doc=doc)
 
 
 def load_cycle_doc(documents, doc):
@@ -171,8 +158,7 @@ def load_cycle_doc(documents, doc):
     if documents.names["catalogue"] is not None:
         table["catalogue"] = documents.names["catalogue"]
     doc["cycle"] = table
-    with tempfile.TemporaryDirectory(prefix="opspace-sweep-") as tmp:
-        return load_duty_cycle(_write(tmp, documents.names["cycle"], doc))
+    return load_duty_cycle(Path(documents.names["cycle"]), doc=doc)
 
 
 _LOADERS = {"robot": load_robot_doc, "catalogue": load_catalogue_doc, "cycle": load_cycle_doc}
