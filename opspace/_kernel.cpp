@@ -1,8 +1,8 @@
 // opspace._kernel: the simulation's inner loop, compiled.
 //
-// The same equations as the Python reference in opspace/simulate.py
+// The same equations as the Python reference in opspace/simulate/loop.py
 // (`_Plant.accel`, `_rk4`, the semi-implicit Euler step), which the tests
-// compare this with to round-off; see that module's docstring for the model:
+// compare this with to round-off; opspace.simulate's docstring has the model:
 //
 //   M ν̇ = Q − h − f,   M = Sᵀ M_full(q) S,   h = Sᵀ nle(q, S ν)
 //   f = f_C sign(ν) + f_v ν + f_rr(ν)     (f_rr: rolling resistance with the

@@ -18,7 +18,8 @@ import opspace
 from opspace import _compiled
 from opspace.control import BasePlan, OperationalSpaceController, Target
 from opspace.description.scenario import load_scenario
-from opspace.simulate import _Plant, _rk4, ScenarioRun, simulate
+from opspace.simulate import ScenarioRun, simulate
+from opspace.simulate.loop import _Plant, _rk4
 from conftest import DEMO, random_state
 
 needs_kernel = pytest.mark.skipif(not _compiled.available(),

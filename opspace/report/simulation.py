@@ -16,7 +16,7 @@ from .sizing import CAUTIONS, _finite
 __all__ = ["SIMULATION_ASSUMPTIONS", "simulation_html", "simulation_text",
            "write_simulation_outputs"]
 
-#: what the simulation assumes, for the page (opspace/simulate.py's docstring)
+#: what the simulation assumes, for the page (the docstring of opspace.simulate)
 SIMULATION_ASSUMPTIONS = (
     "Rigid bodies; wheels roll without slip or side slip (the reduced, nonholonomic model); "
     "the chassis stays on the ground (the ZMP and loads are checked afterwards, not fed back).",

@@ -37,7 +37,7 @@ never absolute times).  RTF is on wall time, as the issue asks; the CPU time of
 this process is printed beside it (time spent descheduled is not charged).
 The pieces of (b) are CPU time, interleaved within each repeat, each given as
 its median share of its parent piece.  The private pieces timed in item 4
-(`opspace._compiled.kernel_plant`, `opspace.simulate._Recorder`, `_Plant`,
+(`opspace._compiled.kernel_plant`, `opspace.simulate.loop._Recorder`, `_Plant`,
 `_rk4`, the controller's `_kernel` and `_command_numpy`) are the ones
 `simulate` calls; if they are renamed, update this script.
 
@@ -63,7 +63,8 @@ from opspace.description import inertia_matrix
 from opspace.description.scenario import load_scenario
 from opspace.model import GRAVITY, load_robot
 from opspace import _compiled
-from opspace.simulate import ScenarioRun, _Plant, _rk4
+from opspace.simulate import ScenarioRun
+from opspace.simulate.loop import _Plant, _rk4
 
 PICK = Path(__file__).resolve().parents[2] / "models" / "marmot" / "pick.toml"
 LWA = pin.LOCAL_WORLD_ALIGNED
@@ -341,7 +342,7 @@ def timed_run(run, integrator="rk4"):
     step and the recorder wrapped in timers (the wrappers add ~1 µs per step).
     Returns {piece: wall µs per step}, the instrumented total as "total" and
     the unwrapped rest of the loop as "loop"."""
-    sim = sys.modules[_Plant.__module__]   # the module (opspace.simulate is also a function name)
+    sim = sys.modules[_Plant.__module__]   # opspace.simulate.loop
     acc = dict.fromkeys(("control", "plant", "record", "result"), 0.0)
     clock = time.perf_counter
     saved = (_compiled.kernel_plant, sim._Recorder.add, sim._Recorder.result)

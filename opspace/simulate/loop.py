@@ -1,199 +1,21 @@
-"""Fixed-step simulation of the reduced dynamics with a sampled controller.
-
-State (q, ν): q the full Pinocchio configuration, ν the reduced velocity.  The
-plant is
-
-    M(q) ν̇ = Q − c(q, ν) − g(q) − f(q, ν)          (see `opspace.dynamics`)
-
-with Q held constant between controller samples (zero-order hold at the
-control period, a multiple of the step).  Coordinates can be held still
-(`locked`): their rates stay zero and the others obey the free block
-M_ff ν̇_f = (Q − c − g − f)_f.
-
-Integrators (the configuration always advances on the manifold with
-`pinocchio.integrate`, never q + v dt):
-
-- ``"rk4"`` (default): the classical fourth-order Runge–Kutta scheme on
-  (q, ν), stage configurations q_i = q ⊕ c_i h S ν_{i−1}, and
-  q⁺ = q ⊕ h S (ν₁ + 2ν₂ + 2ν₃ + ν₄)/6.  Global error O(h⁴) on the arm and
-  wheel coordinates (Hairer, Nørsett & Wanner, Solving ODEs I, 1993, II.1);
-  the base pose enters no dynamic term (the dynamics are invariant to it),
-  so its lower-order composition error cannot feed back.
-- ``"euler"``: semi-implicit (symplectic) Euler, ν⁺ = ν + h ν̇(q, ν),
-  q⁺ = q ⊕ h S ν⁺ (first order).
-
-Rolling resistance uses the static contact loads at the start of each step
-(the centre of mass moves negligibly within one step).
-
-Payload events change the tool body's inertia at an instant.  Pick: a soft,
-perfectly plastic catch of a payload at rest in the world: the generalized
-momentum of robot and payload is kept, M⁺ ν⁺ = M⁻ ν⁻ (the payload brings no
-momentum), so the robot slows slightly.  Release: the payload leaves with the
-tool's velocity, ν⁺ = ν⁻ (the remaining system keeps its own momentum).
-
-Blow-up detection stops the run with a `SimulationError` that names the time
-and the cause and carries the partial result: a non-finite state, a demanded
-effort beyond `blowup` times its limit, or a mass matrix that is not positive
-definite.
-"""
+"""The fixed-step loop: the NumPy plant (the reference of the compiled kernel),
+RK4 and semi-implicit Euler, payload events, blow-up detection, the recorder
+(see the package docstring for the model)."""
 
 from __future__ import annotations
 
 import contextlib
 import math
-from dataclasses import dataclass, field
 
 import numpy as np
 import pinocchio as pin
 from scipy.linalg import lapack
 
-from .dynamics.joint_space import rolling_loads
-from .errors import ModelError
+from ..dynamics.joint_space import rolling_loads
+from ..errors import ModelError
+from .result import SimulationError, SimulationResult
 
-__all__ = ["PayloadEvent", "SimulationError", "SimulationResult", "simulate"]
-
-
-class SimulationError(ModelError):
-    """A run stopped early; `.time` s, `.cause` text, `.result` the partial result."""
-
-    def __init__(self, message, *, time, cause, result=None):
-        super().__init__(message)
-        self.time, self.cause, self.result = time, cause, result
-
-
-@dataclass(frozen=True)
-class PayloadEvent:
-    """At time t (s): "pick" attaches `payload` (a `Payload`) to the plant at
-    its tool frame, "release" detaches it.  `estimate` is the payload the
-    controller's own model is given at the same instant (None: the same; only
-    used when the controller has a robot model of its own)."""
-
-    t: float
-    kind: str
-    payload: object = None
-    estimate: object = None
-
-    def __post_init__(self):
-        if self.kind not in ("pick", "release"):
-            raise ValueError(f"`kind` must be 'pick' or 'release', got {self.kind!r}")
-        if not math.isfinite(self.t) or self.t < 0:
-            raise ValueError(f"event time must be finite and >= 0 s, got {self.t}")
-        if self.kind == "pick" and self.payload is None:
-            raise ValueError("a pick event needs a `payload`")
-
-
-@dataclass(frozen=True, eq=False)
-class SimulationResult:
-    """A simulated run, sampled every `record_every` steps (n samples).
-
-    t (n,) s; q (n, nq); nu, nu_dot (n, nv); Q (n, nv) efforts applied, N·m or N;
-    Q_demand (n, nv) before the limits; saturated (n, nv) bool; payload (n,)
-    bool (held); tool_position (n, 3) m and tool_rotation (n, 3, 3) in the
-    world; target_position (n, 3) m (nan without a target); error (n, k) task
-    error m / rad (nan without a controller); status "completed" or "stopped";
-    message; dt s; control_period s; integrator; coordinate_names;
-    effort_limit (nv,); stability: a `StabilityTrack` over the samples, or None.
-    """
-
-    t: np.ndarray
-    q: np.ndarray
-    nu: np.ndarray
-    nu_dot: np.ndarray
-    Q: np.ndarray
-    Q_demand: np.ndarray
-    saturated: np.ndarray
-    payload: np.ndarray
-    tool_position: np.ndarray
-    tool_rotation: np.ndarray
-    target_position: np.ndarray
-    error: np.ndarray
-    status: str
-    message: str
-    dt: float
-    control_period: float
-    integrator: str
-    coordinate_names: tuple
-    effort_limit: np.ndarray
-    stability: object = None
-    extra: dict = field(default_factory=dict)
-
-    @property
-    def position_error(self):
-        """|p_d − p| of the tool, m, (n,)."""
-        return np.linalg.norm(self.target_position - self.tool_position, axis=1)
-
-    def summary(self):
-        """Figures of the run, each {"value", "unit"}: peak and RMS effort per
-        coordinate, tool position error RMS and peak, wheel energy drawn."""
-        from .report.sizing import _q
-        t = self.t
-        w = _trapezoid_weights(t)
-        T = max(t[-1] - t[0], 1e-300)
-        out = {"status": self.status, "message": self.message,
-               "duration": _q(float(t[-1] - t[0]), "s"), "samples": _q(len(t), "1"),
-               "step": _q(self.dt, "s"), "control_period": _q(self.control_period, "s"),
-               "integrator": self.integrator, "loop": self.extra.get("loop", "numpy"),
-               "efforts": {}}
-        for i, name in enumerate(self.coordinate_names):
-            unit = "N·m" if i < 2 or not self.extra.get("prismatic", {}).get(name) else "N"
-            out["efforts"][name] = {
-                "peak": _q(float(np.max(np.abs(self.Q[:, i]))), unit),
-                "rms": _q(float(math.sqrt(w.dot(self.Q[:, i] ** 2) / T)), unit),
-                "limit": _q(float(self.effort_limit[i]) if np.isfinite(self.effort_limit[i])
-                            else None, unit),
-                "saturated_share": _q(float(self.saturated[:, i].mean()), "1")}
-        e = self.position_error
-        if np.any(np.isfinite(e)):
-            ok = np.isfinite(e)
-            out["tool_position_error"] = {
-                "rms": _q(float(math.sqrt(w[ok].dot(e[ok] ** 2) / T)), "m"),
-                "peak": _q(float(np.max(e[ok])), "m")}
-        P = self.Q[:, :2] * self.nu[:, :2]
-        out["wheel_energy_drawn"] = {name: _q(float(w.dot(np.maximum(P[:, i], 0.0))), "J")
-                                     for i, name in enumerate(self.coordinate_names[:2])}
-        if self.stability is not None:
-            out["min_tip_over_margin"] = _q(float(np.nanmin(self.stability.margin)), "m")
-            out["max_traction_use"] = _q(float(np.nanmax(self.stability.traction)), "1")
-        return out
-
-    def to_npz(self, path):
-        """All arrays in one NumPy archive."""
-        arrays = {k: getattr(self, k) for k in ("t", "q", "nu", "nu_dot", "Q", "Q_demand",
-                                                "saturated", "payload", "tool_position",
-                                                "tool_rotation", "target_position", "error",
-                                                "effort_limit")}
-        if self.stability is not None:
-            arrays.update(zmp=self.stability.zmp, tip_margin=self.stability.margin,
-                          normal_loads=self.stability.loads.N, traction=self.stability.traction)
-        np.savez_compressed(path, coordinate_names=np.array(self.coordinate_names), **arrays)
-
-    def to_csv(self, path):
-        """One row per sample: time, ν, Q, tool and target position, error, ZMP."""
-        cols = {"t [s]": self.t}
-        for i, n in enumerate(self.coordinate_names):
-            cols[f"{n} rate"] = self.nu[:, i]
-        for i, n in enumerate(self.coordinate_names):
-            cols[f"{n} effort"] = self.Q[:, i]
-        for j, a in enumerate("xyz"):
-            cols[f"tool {a} [m]"] = self.tool_position[:, j]
-            cols[f"target {a} [m]"] = self.target_position[:, j]
-        cols["tool position error [m]"] = self.position_error
-        cols["payload"] = self.payload.astype(float)
-        cols["any saturated"] = self.saturated.any(axis=1).astype(float)
-        if self.stability is not None:
-            cols["zmp x [m]"], cols["zmp y [m]"] = self.stability.zmp[:, 0], self.stability.zmp[:, 1]
-            cols["tip-over margin [m]"] = self.stability.margin
-        data = np.column_stack(list(cols.values()))
-        np.savetxt(path, data, delimiter=",", header=",".join(cols), comments="", fmt="%.7g")
-
-
-def _trapezoid_weights(t):
-    w = np.zeros_like(t)
-    if len(t) > 1:
-        dt = np.diff(t)
-        w[:-1] += dt / 2
-        w[1:] += dt / 2
-    return w
+__all__ = ["simulate"]
 
 
 class _Plant:
@@ -339,7 +161,7 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     plant = _Plant(robot, locked, friction)
     kernel = None
     if compiled is None or compiled:
-        from ._compiled import kernel_plant
+        from .._compiled import kernel_plant
         kernel = kernel_plant(robot, locked, friction)
         if kernel is None and compiled:
             raise RuntimeError("the compiled simulation kernel (opspace._kernel) is not "
@@ -512,7 +334,7 @@ class _Recorder:
         if self.table is None:
             self._columns(0)
         fid = robot.tool_frame_id
-        from ._compiled import frame_placements
+        from .._compiled import frame_placements
         poses = frame_placements(robot, self.q[sl], fid) if self.compiled else None
         if poses is None:
             data = robot.model.createData()
@@ -540,8 +362,8 @@ class _Recorder:
 
 def _stability(robot, qs, nus, nu_dots, Qs, payload, end_payload):
     """ZMP, loads and traction over the samples, grouped by payload state."""
-    from .sizing.cycle import _merge_tracks
-    from .stability import stability_track, tyre_forces
+    from ..sizing.cycle import _merge_tracks
+    from ..stability import stability_track, tyre_forces
 
     pieces = []
     with robot.kept():
@@ -559,149 +381,3 @@ def _stability(robot, qs, nus, nu_dots, Qs, payload, end_payload):
             except ValueError:      # airborne at some sample: no track
                 return None
     return _merge_tracks(pieces, len(qs))
-
-
-# ------------------------------------------------------------------ scenarios
-class _StepInfo:
-    """What a scenario's controller did at one sample (a plain slotted record:
-    one is made per control step).  Mh: (M, c + g) it computed at this (q, ν)."""
-
-    __slots__ = ("Q_demand", "saturated", "error", "target_position", "Mh")
-
-    def __init__(self, Q_demand, saturated, error, target_position, Mh=None):
-        self.Q_demand, self.saturated, self.error = Q_demand, saturated, error
-        self.target_position, self.Mh = target_position, Mh
-
-
-class ScenarioRun:
-    """A scenario made ready to run: robots, plans sampled at the control rate,
-    controller, events.  `run()` integrates it; `plans` are kept for figures.
-    `compiled` (None, True, False): the compiled kernel for the controller and
-    the plant, as in `simulate`."""
-
-    def __init__(self, scenario, *, payload_mass_error=None, compiled=None):
-        from . import trajectory as tr
-        from .control import BasePlan, Gains, OperationalSpaceController, Target
-        from .description.duty import resolve_pose
-        from .description.robot import Payload
-        from .description.scenario import check_scenario
-        from .model import load_robot
-
-        sc = self.scenario = scenario
-        robot = self.robot = load_robot(sc.robot_path)
-        err = sc.controller["payload_mass_error"] if payload_mass_error is None else payload_mass_error
-        self.payload_mass_error = float(err)
-        self.controller_robot = load_robot(sc.robot_path) if err else robot
-        arm0 = np.zeros(robot.n_arm) if sc.arm_start is None else resolve_pose(
-            sc, robot, sc.arm_start, "[simulation] arm_start")
-        self.q0 = robot.configuration(arm=arm0)
-        # base plan on the control grid
-        pieces = [tr.base_piece(seg.kind, seg.values) for seg in sc.base]
-        self.timeline = tr.Timeline(pieces) if pieces else None
-        h = sc.control_period
-        self.t_ctrl = np.arange(int(round(sc.duration / h)) + 1) * h
-        if self.timeline is not None:
-            # the plan ends at rest: afterwards the pose holds, the rates are zero
-            b = self.timeline.sample(h)
-            n = len(self.t_ctrl)
-            self.base = {k: _fit(getattr(b, k), n, hold=True) for k in ("x", "y", "theta")}
-            self.base.update({k: _fit(getattr(b, k), n, hold=False)
-                              for k in ("v", "a", "omega", "alpha")})
-        else:
-            z = np.zeros(len(self.t_ctrl))
-            self.base = {k: z for k in ("x", "y", "theta", "v", "a", "omega", "alpha")}
-        # tool path: from the tool's start pose through the waypoints
-        X0 = robot.frame_placement(self.q0, robot.tool_frame_id)
-        times, pos, rots, stops = [], [], [], []
-        if sc.waypoints[0].t > 0:
-            times.append(0.0), pos.append(X0.translation), rots.append(X0.rotation)
-            stops.append(True)
-        R_prev = X0.rotation
-        for w in sc.waypoints:
-            R = R_prev if w.rpy is None else pin.rpy.rpyToMatrix(np.array(w.rpy))
-            times.append(w.t), pos.append(np.array(w.position)), rots.append(R)
-            stops.append(w.stop)
-            R_prev = R
-        self.tool_path = tr.ToolPath(times, pos, np.array(rots), stops)
-        self.tool = self.tool_path.sample(self.t_ctrl)
-
-        def base_pose_at(t):
-            i = min(int(round(t / h)), len(self.t_ctrl) - 1)
-            return self.base["x"][i], self.base["y"][i], self.base["theta"][i]
-
-        check_scenario(sc, robot, base_pose_at,
-                       lambda t: self.tool_path.sample(np.array([t])).p[0])
-        c = sc.controller
-        gains = Gains.from_stiffness(c["stiffness"], c["damping_ratio"])
-        self.controller = OperationalSpaceController(
-            self.controller_robot, axes=c["axes"], mode=c["mode"], gains=gains,
-            posture=c["posture"] if c["posture"] is not None else arm0,
-            posture_gains=Gains.from_stiffness(c["posture_stiffness"], 1.0, size=robot.n_arm),
-            wheel_gain=c["wheel_gain"], friction_feedforward=c["friction_feedforward"],
-            friction_velocity=c["friction_velocity"], compiled=compiled)
-        self.compiled = compiled
-        # every control sample's target and plan, built once (validated paths)
-        tool, b = self.tool, self.base
-        vel = np.concatenate([tool.v, tool.w], axis=1)
-        acc = np.concatenate([tool.a, tool.dw], axis=1)
-        self._targets = [Target.trusted(tool.p[i], tool.R[i], vel[i], acc[i])
-                         for i in range(len(self.t_ctrl))]
-        self._plans = [BasePlan(*vals) for vals in zip(b["v"].tolist(), b["omega"].tolist(),
-                                                       b["a"].tolist(), b["alpha"].tolist())]
-        # the same, packed for the compiled command (`OperationalSpaceController.pack`)
-        self._rate, self._last = 1.0 / sc.control_period, len(self.t_ctrl) - 1
-        self._same_robot = self.controller_robot is self.robot
-        self._packed = np.column_stack([tool.p, tool.R.reshape(-1, 9), vel, acc, b["v"],
-                                        b["omega"], b["a"], b["alpha"]])
-        self.events = []
-        if sc.pick is not None:
-            payload = robot.description.payload if sc.payload == "rated" else sc.payload
-            if payload is None:
-                from .errors import ConfigError
-                raise ConfigError(f"{sc.path.name}: [payload] rated = true but "
-                                  f"{robot.description.path.name} has no [payload]")
-            estimate = Payload(payload.mass * (1.0 + self.payload_mass_error), payload.com,
-                               payload.inertia)
-            self.events.append(PayloadEvent(sc.pick, "pick", payload, estimate))
-            if sc.release is not None:
-                self.events.append(PayloadEvent(sc.release, "release"))
-
-    def control(self, t, q, nu):
-        """The controller sampled at t: (Q, step info).  Targets and plans come
-        from the precomputed, validated paths, so the unchecked fast paths are
-        used (`Target.trusted`, `OperationalSpaceController._command`)."""
-        i = min(int(t * self._rate + 0.5), self._last)
-        c = self.controller
-        if c._kernel is not None:
-            Q = c._command_packed(q, nu, self._packed[i])
-        else:
-            Q = c._command_numpy(q, nu, self._targets[i], self._plans[i])
-        Q_demand = c._info[1]
-        # with a perfect model the NumPy plant's first RK4 stage reuses the controller's M, c + g
-        Mh = c._Mh if self._same_robot else None
-        # saturated: clipped, |Q_demand| > limit  (Q = clip(Q_demand) differs from it)
-        return Q, _StepInfo(Q_demand, Q != Q_demand, c._error, self._packed[i, :3], Mh)
-
-    def run(self, *, integrator=None, progress=None, stability=True, compiled=None):
-        """SimulationResult of the scenario (`compiled`: see `simulate`)."""
-        sc = self.scenario
-        return simulate(self.robot, self.control, duration=sc.duration, q0=self.q0, dt=sc.step,
-                        control_period=sc.control_period, integrator=integrator or sc.integrator,
-                        friction=sc.friction, events=self.events, stability=stability,
-                        controller_robot=self.controller_robot, progress=progress,
-                        compiled=self.compiled if compiled is None else compiled)
-
-
-def _fit(x, n, *, hold):
-    """x cut or extended to n samples: by its last value (hold) or by zeros."""
-    if len(x) >= n:
-        return x[:n]
-    return np.concatenate([x, np.full(n - len(x), x[-1] if hold else 0.0)])
-
-
-def run_scenario(path_or_scenario, *, payload_mass_error=None, integrator=None, progress=None):
-    """Load (if a path), prepare and run a simulation scenario: SimulationResult."""
-    from .description.scenario import Scenario, load_scenario
-    sc = path_or_scenario if isinstance(path_or_scenario, Scenario) else load_scenario(path_or_scenario)
-    return ScenarioRun(sc, payload_mass_error=payload_mass_error).run(integrator=integrator,
-                                                                       progress=progress)
