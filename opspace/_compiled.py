@@ -17,7 +17,7 @@ import warnings
 import numpy as np
 import pinocchio as pin
 
-__all__ = ["available", "frame_placements", "kernel_plant"]
+__all__ = ["available", "frame_placements", "inverse_dynamics_kernel", "kernel_plant"]
 
 
 @functools.cache
@@ -70,3 +70,14 @@ def frame_placements(robot, qs, frame_id):
     k.frame_placements(robot.model, robot.model.createData(), qs.ravel(), int(frame_id),
                        out.ravel())
     return out[:, :3].copy(), out[:, 3:].reshape(-1, 3, 3).copy()
+
+
+def inverse_dynamics_kernel(robot):
+    """The compiled Q = Sᵀ RNEA(q, S ν, S ν̇) of the robot (cached on it), or None."""
+    k = _module()
+    if k is None:
+        return None
+    cached = getattr(robot, "_kernel_id", None)
+    if cached is None:
+        cached = robot._kernel_id = k.InverseDynamics(np.asarray(robot.S, float))
+    return cached

@@ -475,6 +475,27 @@ class Controller {
   Eigen::LLT<MatrixXd> llt_, task_llt_;
 };
 
+// Reduced inverse dynamics without friction: Q = Sᵀ RNEA(q, S ν, S ν̇)
+// (`opspace.inverse_dynamics`; one call instead of four NumPy products).
+class InverseDynamics {
+ public:
+  explicit InverseDynamics(const MatrixXd& S) : red_(S), v_(S.rows()), a_(S.rows()) {}
+
+  // false (Q untouched) when an input is not finite: the caller reports it
+  bool rnea(const Model& model, Data& data, CRefV q, CRefV nu, CRefV nu_dot, RefV Q) {
+    if (!q.allFinite() || !nu.allFinite() || !nu_dot.allFinite()) return false;
+    red_.velocity(nu, v_);
+    red_.velocity(nu_dot, a_);
+    pinocchio::rnea(model, data, q, v_, a_);
+    red_.force(data.tau, Q);
+    return true;
+  }
+
+ private:
+  Reduction red_;
+  VectorXd v_, a_;
+};
+
 // The world placement of frame `fid` at n configurations qs (n * nq, row after
 // row): out (n * 12) = [p (3), R (9, row-major)] per configuration.
 void frame_placements(const Model& model, Data& data, CRefV qs, int fid, RefV out) {
@@ -507,4 +528,6 @@ BOOST_PYTHON_MODULE(_kernel) {
                                   const VectorXd&, const VectorXd&>())
       .def("command", &Controller::command);
   bp::def("frame_placements", frame_placements);
+  bp::class_<InverseDynamics>("InverseDynamics", bp::init<const MatrixXd&>())
+      .def("rnea", &InverseDynamics::rnea);
 }

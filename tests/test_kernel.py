@@ -292,3 +292,32 @@ def test_a_continuous_joint_and_a_prismatic_joint_on_both_loops(tmp_path):
     # the task rows (x, z) are tracked; the tool's y is free here
     assert np.abs(a.error).max() < 5e-3
     assert np.ptp(a.q[:, 0]) > 0.03 and np.ptp(a.q[:, 6]) > 0.02     # base and slide moved
+
+
+@needs_kernel
+def test_inverse_dynamics_equals_numpy(demo, rng):
+    # opspace.inverse_dynamics makes one compiled call for Sᵀ RNEA(q, S ν, S ν̇):
+    # the same as the NumPy products (the outside checks of inverse dynamics are
+    # in test_joint_space.py and test_properties.py)
+    pin, S = opspace.model.pin, demo.S
+    with demo.kept():
+        for payload in (None, demo.description.payload):
+            if payload is not None:
+                demo.attach_payload(payload)
+            for _ in range(4):
+                q, nu = random_state(demo, rng)
+                nu_dot = rng.normal(size=demo.nv)
+                ref = demo.St.dot(pin.rnea(demo.model, demo.model.createData(), q, S.dot(nu),
+                                           S.dot(nu_dot)))
+                close(opspace.inverse_dynamics(demo, q, nu, nu_dot, with_friction=False), ref,
+                      1e-12)
+
+
+@pytest.mark.parametrize("which", ["q", "nu", "nu_dot"])
+def test_inverse_dynamics_names_a_non_finite_input(demo, which):
+    # the compiled call checks finiteness itself; the message still names the input
+    args = {"q": demo.configuration(), "nu": np.zeros(demo.nv), "nu_dot": np.zeros(demo.nv)}
+    args[which] = args[which].copy()
+    args[which][-1] = np.nan
+    with pytest.raises(ValueError, match=f"`{which}` has non-finite entries"):
+        opspace.inverse_dynamics(demo, args["q"], args["nu"], args["nu_dot"])

@@ -33,6 +33,7 @@ import pinocchio as pin
 import threadpoolctl
 from scipy.linalg import lapack
 
+from .. import _compiled
 from .._checks import as_vector as _vec
 from ..errors import ModelError
 
@@ -74,6 +75,14 @@ class JointSpaceTerms:
 
 
 # ---------------------------------------------------------------- checks
+_F64 = np.dtype(float)
+
+
+def _plain(x, size):
+    """x is already a float vector of shape (size,) (finiteness not checked)."""
+    return type(x) is np.ndarray and x.dtype is _F64 and x.shape == (size,)
+
+
 def _state(robot, q, nu):
     return _vec("q", q, robot.model.nq), _vec("nu", nu, robot.nv)
 
@@ -291,10 +300,19 @@ def inverse_dynamics(robot, q, nu, nu_dot, *, with_friction=True):
     -------
     Q : ndarray (nv,)
     """
-    q, nu = _state(robot, q, nu)
-    nu_dot = _vec("nu_dot", nu_dot, robot.nv)
-    S = robot.S
-    Q = robot.St.dot(pin.rnea(robot.model, robot.data, q, S.dot(nu), S.dot(nu_dot)))
+    kernel = _compiled.inverse_dynamics_kernel(robot)
+    Q = None
+    if kernel is not None and _plain(q, robot.model.nq) and _plain(nu, robot.nv) \
+            and _plain(nu_dot, robot.nv):
+        # the same products in one compiled call, which also checks finiteness
+        Q = np.empty(robot.nv)
+        if not kernel.rnea(robot.model, robot.data, q, nu, nu_dot, Q):
+            Q = None                            # not finite: the checks below say which
+    if Q is None:
+        q, nu = _state(robot, q, nu)
+        nu_dot = _vec("nu_dot", nu_dot, robot.nv)
+        S = robot.S
+        Q = robot.St.dot(pin.rnea(robot.model, robot.data, q, S.dot(nu), S.dot(nu_dot)))
     if with_friction:
         Q += _friction(robot, q, nu)
     return Q
