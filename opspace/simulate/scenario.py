@@ -120,7 +120,8 @@ class ScenarioRun:
     def control(self, t, q, nu):
         """The controller sampled at t: (Q, step info).  Targets and plans come
         from the precomputed, validated paths, so the unchecked fast paths are
-        used (`Target.trusted`, `OperationalSpaceController._command`)."""
+        used: the compiled command on the packed targets (`_command_packed`),
+        or `_command_numpy` on `Target.trusted` ones without the kernel."""
         i = min(int(t * self._rate + 0.5), self._last)
         c = self.controller
         if c._kernel is not None:
