@@ -110,7 +110,8 @@ def _cmd_simulate(args):
 
     path = Path(args.scenario) if args.scenario else demo_robot_path().with_name("pick.toml")
     scenario = load_scenario(path)
-    run = ScenarioRun(scenario, payload_mass_error=args.payload_error)   # validates it all
+    run = ScenarioRun(scenario, payload_mass_error=args.payload_error,   # validates it all
+                      compiled=False if args.reference_loop else None)
     out = Path(args.output)
     if out.exists() and not out.is_dir():
         raise ConfigError(f"-o {out}: exists and is not a directory")
@@ -193,6 +194,9 @@ def build_parser():
     p.add_argument("--payload-error", type=float, default=None,
                    help="relative payload-mass error of the controller's model (e.g. 0.1)")
     p.add_argument("--no-animation", action="store_true", help="skip the GIF")
+    p.add_argument("--reference-loop", action="store_true",
+                   help="run the NumPy reference loop instead of the compiled kernel "
+                        "(same equations, ~5x slower; for cross-checks)")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_simulate)
     # ------------------------------------------------------------ opspace sweep

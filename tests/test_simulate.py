@@ -274,6 +274,19 @@ def test_cli_simulate_bad_scenario_exits_2(tmp_path):
     assert not (tmp_path / "out").exists()
 
 
+def test_cli_simulate_reference_loop(tmp_path):
+    # --reference-loop runs the NumPy loop end to end; the outputs say so
+    import json
+
+    from conftest import run_cli_module
+    res = run_cli_module("simulate", str(PICK), "-o", str(tmp_path / "out"), "--no-animation",
+                         "--reference-loop", "-q")
+    assert res.returncode == 0, res.stderr
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())
+    assert summary["loop"] == "numpy" and summary["status"] == "completed"
+    assert "numpy loop" in (tmp_path / "out" / "summary.txt").read_text()
+
+
 def test_pick_example_quick(tmp_path):
     import runpy
     from conftest import REPO
