@@ -48,7 +48,7 @@ def check_summary(robot):
     poses = [("neutral (arm at zero)", robot.configuration())]
     poses += [(name, robot.configuration(arm=name)) for name in d.poses]
     header = (f"{'arm pose':<24}{'COM x,y,z [m]':>24}{'I_P [kg m^2]':>14}{'a [-]':>8}"
-              f"{'M_w [kg m^2]':>30}{'wheel mass R/L [kg]':>22}")
+              f"{'M_w [kg m^2]':>44}{'wheel mass R/L [kg]':>22}")
     lines.append("locked-arm inertia seen by the drive wheels "
                  "(a = I_P/(m b^2): yaw inertia about the pivot over m b^2)")
     lines.append(header)
@@ -56,9 +56,9 @@ def check_summary(robot):
         di = drive_inertia(robot, q)
         com = ", ".join(f"{v:+.3f}" for v in di.com)
         Mw = di.M_w
+        M_text = f"[[{Mw[0, 0]:.4f}, {Mw[0, 1]:.4f}], [{Mw[1, 0]:.4f}, {Mw[1, 1]:.4f}]]"
         lines.append(f"{name:<24}{com:>24}{di.yaw_inertia:>14.3f}{di.distribution:>8.3f}"
-                     f"{f'[[{Mw[0, 0]:.4f}, {Mw[0, 1]:.4f}], [{Mw[1, 0]:.4f}, {Mw[1, 1]:.4f}]]':>30}"
-                     f"{f'{di.wheel_mass[0]:.1f} / {di.wheel_mass[1]:.1f}':>22}")
+                     f"{M_text:>44}{f'{di.wheel_mass[0]:.1f} / {di.wheel_mass[1]:.1f}':>22}")
     if not d.poses:
         lines.append("(no [poses] in the description: add e.g. a side-reach pose to see "
                      "how the arm changes these figures)")
