@@ -4,13 +4,14 @@
 - `worst_case`: worst arm poses for wheel torque and tip-over, shortest stop.
 - `run`: `size()`, the whole pipeline, and its `SizingResult`.
 - `drives`: motor torque, speed, power and energy per drive wheel, RMS and
-  thermal RMS figures, motor-and-gearbox candidate checks and ratio sweeps.
+  thermal RMS figures.
+- `candidates`: motor-and-gearbox candidate checks and gear-ratio sweeps.
 """
 
-from .drives import (CandidateCheck, Criterion, DriveFigures, RatioSweep, WheelDuty,
-                     check_candidate, cycle_energy, cycle_rms, drive_figures, duty_factor,
-                     electrical_power, evaluate_catalogue, inertia_matching_ratio, motor_torque,
-                     sweep_ratios, thermal_rms)
+from .candidates import (CandidateCheck, Criterion, RatioSweep, check_candidate,
+                         evaluate_catalogue, sweep_ratios)
+from .drives import (DriveFigures, WheelDuty, cycle_energy, cycle_rms, drive_figures, duty_factor,
+                     electrical_power, inertia_matching_ratio, motor_torque, thermal_rms)
 from .cycle import CycleEvaluation, evaluate_cycle
 from .run import SizingResult, size
 from .worst_case import StopFigures, WorstPose, shortest_stop, worst_poses

@@ -28,7 +28,8 @@ from ..dynamics.joint_space import drive_inertia
 from ..errors import ConfigError
 from ..model import MobileManipulator, load_robot
 from .cycle import CycleEvaluation, evaluate_cycle, start_pose
-from .drives import Criterion, WheelDuty, drive_figures, evaluate_catalogue
+from .candidates import Criterion, evaluate_catalogue
+from .drives import WheelDuty, drive_figures
 from .worst_case import critical_instants, shortest_stop, worst_poses
 
 __all__ = ["SizingResult", "size"]
@@ -152,7 +153,7 @@ def size(duty, *, robot=None, catalogue=None, search=True, progress=None):
     try:
         wd = WheelDuty(t=ev.t, torque=ev.tau_out, speed=ev.wheel_speed,
                        acceleration=ev.wheel_acc, cycles_per_hour=duty.cycles_per_hour,
-                       wheels=("right", "left"))   # drives.py appends " wheel"
+                       wheels=("right", "left"))   # candidates.py appends " wheel"
     except ValueError as exc:
         raise ConfigError(f"{duty.path.name}: [cycle] cycles_per_hour: {exc}") from None
     drv = robot.description.drive
