@@ -216,6 +216,10 @@ def test_result_files(demo_runs, tmp_path):
     s = res.summary()
     assert s["tool_position_error"]["rms"]["unit"] == "m"
     assert s["efforts"]["lift"]["peak"]["unit"] == "N"
+    # the orientation error is |log(R_d Rᵀ)| of the three angular task rows
+    o = s["tool_orientation_error"]
+    assert o["peak"]["unit"] == "rad"
+    assert o["peak"]["value"] == pytest.approx(np.linalg.norm(res.error[:, 3:6], axis=1).max())
 
 
 def scenario_doc(**overrides):

@@ -43,6 +43,10 @@ def simulation_text(run, result, *, compare=None):
     if e:
         lines.append(f"tool position error: RMS {e['rms']['value'] * 1e3:.2f} mm, peak "
                      f"{e['peak']['value'] * 1e3:.2f} mm")
+    o = s.get("tool_orientation_error")
+    if o:
+        lines.append(f"tool orientation error: RMS {o['rms']['value'] * 1e3:.1f} mrad, peak "
+                     f"{o['peak']['value'] * 1e3:.1f} mrad")
     if compare is not None:
         err, other = compare
         c = other.summary().get("tool_position_error")
@@ -95,10 +99,16 @@ def simulation_html(run, result, images, *, compare=None):
 
     page.heading("Tracking")
     rows = []
+    model = ("perfect model" if not run.payload_mass_error else
+             f"the controller's payload mass off by {run.payload_mass_error:+.0%}")
     e = s.get("tool_position_error")
     if e:
-        rows.append(["tool position error (perfect model)", fmt(e["rms"]["value"] * 1e3),
+        rows.append([f"tool position error ({model})", fmt(e["rms"]["value"] * 1e3),
                      fmt(e["peak"]["value"] * 1e3), "mm"])
+    o = s.get("tool_orientation_error")
+    if o:
+        rows.append([f"tool orientation error ({model})", fmt(o["rms"]["value"] * 1e3),
+                     fmt(o["peak"]["value"] * 1e3), "mrad"])
     if compare is not None:
         err, other = compare
         c = other.summary().get("tool_position_error")

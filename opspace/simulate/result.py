@@ -82,6 +82,14 @@ class SimulationResult:
         """|p_d − p| of the tool, m, (n,)."""
         return np.linalg.norm(self.target_position - self.tool_position, axis=1)
 
+    @property
+    def orientation_error(self):
+        """|log(R_d Rᵀ)| of the tool, rad, (n,); None unless the task had all
+        six rows (then error[:, 3:6] is the orientation error)."""
+        if self.error.shape[1] != 6:
+            return None
+        return np.linalg.norm(self.error[:, 3:6], axis=1)
+
     def summary(self):
         """Figures of the run, each {"value", "unit"}: peak and RMS effort per
         coordinate, tool position error RMS and peak, wheel energy drawn."""
@@ -102,12 +110,12 @@ class SimulationResult:
                 "limit": _q(float(self.effort_limit[i]) if np.isfinite(self.effort_limit[i])
                             else None, unit),
                 "saturated_share": _q(float(self.saturated[:, i].mean()), "1")}
-        e = self.position_error
-        if np.any(np.isfinite(e)):
-            ok = np.isfinite(e)
-            out["tool_position_error"] = {
-                "rms": _q(float(math.sqrt(w[ok].dot(e[ok] ** 2) / T)), "m"),
-                "peak": _q(float(np.max(e[ok])), "m")}
+        for key, e, unit in (("tool_position_error", self.position_error, "m"),
+                             ("tool_orientation_error", self.orientation_error, "rad")):
+            if e is not None and np.any(np.isfinite(e)):
+                ok = np.isfinite(e)
+                out[key] = {"rms": _q(float(math.sqrt(w[ok].dot(e[ok] ** 2) / T)), unit),
+                            "peak": _q(float(np.max(e[ok])), unit)}
         P = self.Q[:, :2] * self.nu[:, :2]
         out["wheel_energy_drawn"] = {name: _q(float(w.dot(np.maximum(P[:, i], 0.0))), "J")
                                      for i, name in enumerate(self.coordinate_names[:2])}
