@@ -20,7 +20,7 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover
     import tomli as tomllib
 
-__all__ = ["Entry", "Section", "check_inertia", "inertia_matrix", "read_toml"]
+__all__ = ["Entry", "Section", "check_inertia", "inertia_matrix", "read_document", "read_toml"]
 
 
 # ---------------------------------------------------------------------------
@@ -36,6 +36,23 @@ def read_toml(path):
         raise ConfigError(f"{path}: not valid TOML ({exc})") from None
     except OSError as exc:
         raise ConfigError(f"{path}: cannot be read ({exc})") from None
+
+
+def read_document(path, doc, tables, required, *, listed=None):
+    """(path, doc) of an input file: its parsed TOML (or `doc`, already parsed),
+    with unknown top-level tables rejected (the message lists `listed`, default
+    the names of `tables`) and every `required` table present; ConfigError
+    naming the file otherwise."""
+    path = Path(path)
+    doc = read_toml(path) if doc is None else doc
+    unknown = sorted(set(doc) - set(tables))
+    if unknown:
+        raise ConfigError(f"{path.name}: [{unknown[0]}] is not a known table "
+                          f"(valid tables: {listed or ', '.join(tables)})")
+    for table in required:
+        if table not in doc:
+            raise ConfigError(f"{path.name}: table [{table}] is missing")
+    return path, doc
 
 
 class Section:

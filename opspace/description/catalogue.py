@@ -65,7 +65,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Entry, Section, read_toml
+from ._toml import Entry, Section, read_document
 
 __all__ = ["Catalogue", "Gearbox", "Motor", "load_catalogue"]
 
@@ -196,15 +196,9 @@ def load_catalogue(path, *, doc=None):
     ------
     ConfigError   naming file, entry, key, value and expectation
     """
-    path = Path(path)
-    doc = read_toml(path) if doc is None else doc
+    path, doc = read_document(path, doc, TOP_LEVEL, ("catalogue",),
+                              listed="[catalogue], [[motor]], [[gearbox]]")
     fname = path.name
-    unknown = sorted(set(doc) - set(TOP_LEVEL))
-    if unknown:
-        raise ConfigError(f"{fname}: [{unknown[0]}] is not a known table "
-                          f"(valid tables: [catalogue], [[motor]], [[gearbox]])")
-    if "catalogue" not in doc:
-        raise ConfigError(f"{fname}: table [catalogue] is missing")
     s = Section(path, "catalogue", doc["catalogue"])
     name = s.string("name")
     s.finish()

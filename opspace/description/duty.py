@@ -44,7 +44,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Section, read_toml
+from ._toml import Section, read_document
 
 __all__ = ["DutyCycle", "Segment", "load_duty_cycle", "SEGMENT_KINDS"]
 
@@ -95,14 +95,7 @@ def load_duty_cycle(path, *, robot=None, doc=None):
     ConfigError   naming the file, the segment, the field, the value and the
                   expectation
     """
-    path = Path(path)
-    doc = read_toml(path) if doc is None else doc
-    unknown = sorted(set(doc) - {"cycle", "segment"})
-    if unknown:
-        raise ConfigError(f"{path.name}: [{unknown[0]}] is not a known table "
-                          f"(valid tables: cycle, segment)")
-    if "cycle" not in doc:
-        raise ConfigError(f"{path.name}: table [cycle] is missing")
+    path, doc = read_document(path, doc, ("cycle", "segment"), ("cycle",))
     s = Section(path, "cycle", doc["cycle"])
     name = s.string("name", "duty cycle")
     robot_rel = s.string("robot")

@@ -34,7 +34,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Section, check_inertia, read_toml
+from ._toml import Section, check_inertia, read_document
 
 __all__ = [
     "ArmJointDrive",
@@ -172,16 +172,8 @@ def load_description(path, *, doc=None, urdf_text=None):
     ------
     ConfigError   naming file, key, value and expectation
     """
-    path = Path(path)
-    doc = read_toml(path) if doc is None else doc
+    path, doc = read_document(path, doc, TOP_LEVEL, ("robot", "base", "wheel", "drive", "mount"))
     name = path.name
-    unknown = sorted(set(doc) - set(TOP_LEVEL))
-    if unknown:
-        raise ConfigError(f"{name}: [{unknown[0]}] is not a known table "
-                          f"(valid tables: {', '.join(TOP_LEVEL)})")
-    for required in ("robot", "base", "wheel", "drive", "mount"):
-        if required not in doc:
-            raise ConfigError(f"{name}: table [{required}] is missing")
 
     s = Section(path, "robot", doc["robot"])
     robot_name = s.string("name")

@@ -58,7 +58,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Section, read_toml
+from ._toml import Section, read_document
 from .duty import _READERS
 from .robot import Payload, read_payload
 
@@ -136,15 +136,8 @@ def load_scenario(path):
     ConfigError   naming the file, the table or entry, the key, the value and the
                   expectation; unknown keys are listed with the valid ones
     """
-    path = Path(path)
-    doc = read_toml(path)
-    tables = ("simulation", "controller", "base", "waypoint", "payload")
-    unknown = sorted(set(doc) - set(tables))
-    if unknown:
-        raise ConfigError(f"{path.name}: [{unknown[0]}] is not a known table "
-                          f"(valid tables: {', '.join(tables)})")
-    if "simulation" not in doc:
-        raise ConfigError(f"{path.name}: table [simulation] is missing")
+    path, doc = read_document(path, None, ("simulation", "controller", "base", "waypoint",
+                                           "payload"), ("simulation",))
     s = Section(path, "simulation", doc["simulation"])
     name = s.string("name", "simulation")
     robot_rel = s.string("robot")

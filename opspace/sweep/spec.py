@@ -20,7 +20,7 @@ import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ..description._toml import Entry, Section, read_toml
+from ..description._toml import Entry, Section, read_document
 from ..errors import ConfigError
 from . import docs as _docs
 from .paths import PathError, Step, matches, parse_figure, parse_path
@@ -152,15 +152,8 @@ def load_sweep(path):
     ConfigError   naming the sweep file, the parameter (or key), the value and
                   the expectation
     """
-    path = Path(path)
-    doc = read_toml(path)
+    path, doc = read_document(path, None, TOP_LEVEL, ("sweep",))
     fname = path.name
-    unknown = sorted(set(doc) - set(TOP_LEVEL))
-    if unknown:
-        raise ConfigError(f"{fname}: [{unknown[0]}] is not a known table "
-                          f"(valid tables: {', '.join(TOP_LEVEL)})")
-    if "sweep" not in doc:
-        raise ConfigError(f"{fname}: table [sweep] is missing")
     head = _read_head(Section(path, "sweep", doc["sweep"]), path)
     name, duty_rel, search, samples, seed, best, require_pass, figure_texts = head
     duty_path = (path.parent / duty_rel).resolve()
