@@ -143,3 +143,20 @@ def random_state(robot, rng, scale=1.0):
     q = robot.configuration(base_pose=rng.uniform(-2, 2, 3), wheels=rng.uniform(-3, 3, 2),
                             arm=rng.uniform(lo, hi))
     return q, scale * rng.normal(size=robot.nv)
+
+
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+
+
+def png_checked(fig, *, min_height):
+    """Render; check the PNG signature, its width (~900 px) and a plausible size."""
+    import struct
+
+    from opspace.plots import figure_to_png_bytes
+    data = figure_to_png_bytes(fig)
+    assert data[:8] == PNG_SIGNATURE, "not a PNG stream"
+    width, height = struct.unpack(">II", data[16:24])   # IHDR follows the signature
+    assert 850 <= width <= 1000, f"figure is {width} px wide, the report expects ~900"
+    assert min_height <= height <= 2000, f"figure is {height} px high"
+    assert 10_000 < len(data) < 3_000_000, f"PNG of {len(data)} bytes: empty or bloated"
+    return data

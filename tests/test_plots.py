@@ -15,15 +15,15 @@ from memory).
 from __future__ import annotations
 
 import re
-import struct
 
 import numpy as np
 import pytest
+
+from conftest import PNG_SIGNATURE, png_checked
 from matplotlib.patches import Circle, Polygon, Rectangle
 
 from opspace import plots
 
-PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 UNIT = re.compile(r"\[[^\]]+\]")
 
 T = np.linspace(0.0, 12.0, 600)
@@ -39,14 +39,7 @@ FOOTPRINT = (-0.35, 0.35, -0.25, 0.25, 0.40)
 
 # ------------------------------------------------------------------- helpers
 def png_checks(fig):
-    """Render; check the PNG signature, its width (~900 px) and a plausible size."""
-    data = plots.figure_to_png_bytes(fig)
-    assert data[:8] == PNG_SIGNATURE, "not a PNG stream"
-    width, height = struct.unpack(">II", data[16:24])   # IHDR follows the signature
-    assert 850 <= width <= 1000, f"figure is {width} px wide, the report expects ~900"
-    assert 300 <= height <= 2000, f"figure is {height} px high"
-    assert 10_000 < len(data) < 3_000_000, f"PNG of {len(data)} bytes: empty or bloated"
-    return data
+    return png_checked(fig, min_height=300)
 
 
 def title_of(fig):

@@ -22,7 +22,6 @@ from __future__ import annotations
 
 import math
 import re
-import struct
 from types import SimpleNamespace
 
 import numpy as np
@@ -33,11 +32,9 @@ from scipy.spatial.transform import Rotation
 
 from opspace.plots.simulation import (animation, base_path, efforts, frames_from_result,
                                       tracking_error)
-from opspace.plots.sizing import figure_to_png_bytes
 
-from conftest import make_robot
+from conftest import make_robot, png_checked
 
-PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 UNIT = re.compile(r"\[[^\]]+\]")
 T = np.linspace(0.0, 8.0, 1601)
 FOOTPRINT = (-0.35, 0.35, -0.25, 0.25, 0.34)
@@ -45,14 +42,7 @@ FOOTPRINT = (-0.35, 0.35, -0.25, 0.25, 0.34)
 
 # ------------------------------------------------------------------- helpers
 def png_checks(fig):
-    """Render; check the PNG signature, its width (~900 px) and a plausible size."""
-    data = figure_to_png_bytes(fig)
-    assert data[:8] == PNG_SIGNATURE, "not a PNG stream"
-    width, height = struct.unpack(">II", data[16:24])   # IHDR follows the signature
-    assert 850 <= width <= 1000, f"figure is {width} px wide, the report expects ~900"
-    assert 250 <= height <= 2000, f"figure is {height} px high"
-    assert 10_000 < len(data) < 3_000_000, f"PNG of {len(data)} bytes: empty or bloated"
-    return data
+    return png_checked(fig, min_height=250)
 
 
 def assert_units(*labels):
