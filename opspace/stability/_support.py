@@ -341,9 +341,9 @@ def _deflection_plane(A, bp, Fb, sl, F, e):
     """u of eq. (1) that gives the forces F (statically determinate case)."""
     d = np.zeros_like(F)
     for j in range(F.shape[1]):
-        for t in range(bp.shape[1]):
+        for t in np.flatnonzero(np.isfinite(bp[j])):
             b_next = bp[j, t + 1] if t + 1 < bp.shape[1] else np.inf
-            F_next = Fb[j, t + 1] if t + 1 < bp.shape[1] and np.isfinite(b_next) else np.inf
+            F_next = Fb[j, t + 1] if np.isfinite(b_next) else np.inf
             sel = (F[:, j] >= Fb[j, t]) & (F[:, j] <= F_next)
             d[sel, j] = bp[j, t] + (F[sel, j] - Fb[j, t]) / sl[j, t]
     return np.linalg.solve(A.T, (d + e).T).T
