@@ -25,8 +25,10 @@ def demo_robot_path():
 def _cmd_check(args):
     from .model import load_robot
     from .report import check_summary
+    from .stability import check_standing
 
     robot = load_robot(args.robot or demo_robot_path())
+    check_standing(robot)
     print(check_summary(robot))
     return 0
 

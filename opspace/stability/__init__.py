@@ -11,7 +11,8 @@
 
 from .contacts import (GRAVITY, ContactLoads, StoppingLimits, SupportPolygon, normal_loads,
                        stopping_limits, support_polygon, tip_angle, traction_use, zmp)
-from ._support import SupportLoads, SupportModel, support_loads, support_model
+from ._support import (SupportLoads, SupportModel, check_standing, support_loads,
+                       support_model)
 from .wrench import GroundWrench, StabilityTrack, ground_wrench, stability_track, tyre_forces
 
 __all__ = [
@@ -23,6 +24,7 @@ __all__ = [
     "SupportLoads",
     "SupportModel",
     "SupportPolygon",
+    "check_standing",
     "ground_wrench",
     "normal_loads",
     "stability_track",

@@ -397,3 +397,34 @@ def support_model(robot) -> SupportModel:
         unevenness=spec.unevenness)
     robot._support_model = model
     return model
+
+
+def check_standing(robot):
+    """Refuse a robot that cannot stand: ConfigError naming the neutral pose and
+    each [poses] entry whose centre of mass projects outside the support polygon
+    (statics: the weight's line of action must meet the support; the polygon's
+    corners are the drive wheels, the free casters and the rocker pivots)."""
+    import pinocchio as pin
+
+    from ..errors import ConfigError
+
+    model = support_model(robot)
+    polygon = support_polygon(model.element_positions)
+    d = robot.description
+    where = d.path.name
+    if polygon.is_segment:
+        raise ConfigError(f"{where}: the drive wheels and casters lie on one line: the base "
+                          "cannot stand (move a caster off the drive axle's line)")
+    poses = [("neutral pose (arm at zero)", robot.configuration())]
+    poses += [(f"[poses] {name}", robot.configuration(arm=name)) for name in d.poses]
+    data = robot.model.createData()
+    bad = []
+    for name, q in poses:
+        c = pin.centerOfMass(robot.model, data, q, False)
+        margin, _ = polygon.margin(c[:2])
+        if margin < 0.0:
+            bad.append(f"{name} (COM at x = {c[0]:.3f}, y = {c[1]:.3f} m, "
+                       f"{-margin * 1000:.0f} mm outside)")
+    if bad:
+        raise ConfigError(f"{where}: the centre of mass lies outside the support polygon at "
+                          f"{'; '.join(bad)}: the robot tips over standing still")
