@@ -192,3 +192,57 @@ def test_rocker_shares_in_an_indeterminate_layout():
     np.testing.assert_allclose(loads.N[:, 3], loads.N[:, 4], rtol=1e-12)
     A = np.vstack([np.ones(5), np.asarray(P, float).T])
     np.testing.assert_allclose(loads.N @ A.T, [[500, 10, 15], [800, -80, -40]], atol=1e-8)
+
+
+# --------------------------------------------------------------------------- traction
+def _diamond_robot(tmp_path, c_rr=0.02):
+    """Drive wheels at (0, ±0.25), casters at (±0.3, 0), COM on the x axis: the
+    static (equal-stiffness) loads are N_d = W/4 per drive wheel and W/2 on the
+    casters together, N_front − N_rear = W x_c / l (plane N = α + β x)."""
+    doc = base_doc(base__com=[0.05, 0.0, 0.25], base__rolling_resistance=c_rr)
+    return make_robot(tmp_path, two_link_urdf(), doc)
+
+
+def test_traction_use_straight_acceleration_with_caster_resistance(tmp_path):
+    """Newton for the whole robot along a straight line: the drive tyres push the
+    mass and the casters' rolling resistance, Σ F_x = m a + C_rr Σ N_c
+    (common practice, no source), so each wheel supplies (m a + C_rr W/2)/2 and
+    uses |F_x| / (μ N_d) of its friction with N_d = W/4."""
+    robot = _diamond_robot(tmp_path)
+    r, a, v = 0.1, 1.2, 0.8
+    q = robot.configuration(arm=[0.2, -0.4])
+    nu, nu_dot = np.array([v / r, v / r, 0, 0]), np.array([a / r, a / r, 0, 0])
+    Q = opspace.inverse_dynamics(robot, q, nu, nu_dot)
+    F = opspace.stability.tyre_forces(robot, q[None], nu[None], nu_dot[None], Q[None])
+    tr = stability_track(robot, q[None], nu[None], nu_dot[None], F, mu=0.5)
+    m = robot.total_mass()
+    W = m * G
+    F_hand = (m * a + 0.02 * W / 2) / 2
+    np.testing.assert_allclose(F[0], [F_hand, F_hand], rtol=1e-9)
+    np.testing.assert_allclose(tr.traction[0], F_hand / (0.5 * W / 4), rtol=1e-9)
+
+
+def test_traction_use_turn_on_the_spot_with_caster_resistance(tmp_path):
+    """Turning on the spot at a steady rate ω: the casters at (±l, 0) resist with
+    C_rr N_c across their paths (yaw moment −C_rr l W/2 about the pivot, side
+    force C_rr (N_f − N_b)); moments about the fixed pivot and Newton along x
+    and y give F_r,l = (−m ω² x_c ± C_rr l W/(2b)) / 2 and a side force
+    C_rr W x_c / l shared equally (statics of a rigid body, by hand)."""
+    robot = _diamond_robot(tmp_path)
+    r, b, l, w = 0.1, 0.25, 0.3, 1.5
+    q = robot.configuration(arm=[0.2, -0.4])
+    nu = np.array([w * b / r, -w * b / r, 0, 0])
+    nu_dot = np.zeros(4)
+    Q = opspace.inverse_dynamics(robot, q, nu, nu_dot)
+    F = opspace.stability.tyre_forces(robot, q[None], nu[None], nu_dot[None], Q[None])
+    tr = stability_track(robot, q[None], nu[None], nu_dot[None], F, mu=0.6)
+    import pinocchio as pin
+    x_c = pin.centerOfMass(robot.model, robot.model.createData(), q)[0]
+    m = robot.total_mass()
+    W = m * G
+    turn = 0.02 * l * W / (2 * b)
+    F_x = np.array([(-m * w**2 * x_c + turn) / 2, (-m * w**2 * x_c - turn) / 2])
+    F_y = 0.02 * W * x_c / l / 2
+    np.testing.assert_allclose(F[0], F_x, rtol=1e-9)
+    np.testing.assert_allclose(tr.tyre_force[0, :, 1], [F_y, F_y], rtol=1e-9)
+    np.testing.assert_allclose(tr.traction[0], np.hypot(F_x, F_y) / (0.6 * W / 4), rtol=1e-9)
