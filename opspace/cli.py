@@ -96,8 +96,12 @@ def _cmd_size(args):
               f"{'pass' if c.passed else 'FAIL'} — {c.note}")
     if result.stop is not None:
         s = result.stop
-        print(f"  shortest stop from {s.speed:g} m/s (worst arm pose, payload): "
-              f"{s.deceleration:.2f} m/s², {s.distance:.2f} m, limited by {s.limited_by}")
+        if s.deceleration > 0:
+            print(f"  shortest stop from {s.speed:g} m/s (worst arm pose, payload): "
+                  f"{s.deceleration:.2f} m/s², {s.distance:.2f} m, limited by {s.limited_by}")
+        else:
+            print(f"  shortest stop from {s.speed:g} m/s (worst arm pose, payload): none "
+                  f"without losing grip or tipping ({s.limited_by})")
     print(f"report: {paths['report']}")
     print(f"figures with units: {paths['summary']}; time series: {paths['timeseries']}")
     print("Model estimates: apply service factors, verify on hardware, follow the applicable "

@@ -86,3 +86,41 @@ def test_check_names_the_load_model(tmp_path, capsys):
     assert code == 0
     assert "load model: rigid chassis; sprung drive wheels" in out
     assert "friction 0.35 to 0.7 (nominal 0.6)" in out
+
+
+def test_drive_wheel_lift_off_gives_a_complete_failing_report(tmp_path, capsys):
+    """Drive wheels outside the casters' track and the COM far to the left: the
+    plane of equal-stiffness loads, N_i = α + β x_i + γ y_i, unloads the right
+    wheel (by hand, with the contacts (0, ±0.25), (±0.3, ±0.1) and the COM at
+    y_p: N_r = W/6 − 0.25 W y_p / 0.165 < 0 for y_p > 0.11 m, while the robot
+    still stands on the others).  `opspace size` writes the whole report, names
+    the lift-off with its instant everywhere, and exits 1."""
+    import json
+    import math
+
+    doc = base_doc(base__com=[0.0, 0.17, 0.2],
+                   caster=[{"position": [x, y]} for x in (0.3, -0.3) for y in (0.1, -0.1)])
+    (tmp_path / "arm.urdf").write_text(two_link_urdf())
+    write_toml(tmp_path / "robot.toml", doc)
+    cycle = write_toml(tmp_path / "cycle.toml", {
+        "cycle": {"name": "lift", "robot": "robot.toml", "cycles_per_hour": 10.0,
+                  "sample_rate": 50.0},
+        "segment": [{"kind": "straight", "distance": 1.0, "speed": 0.6, "acceleration": 0.8}]})
+    out = tmp_path / "out"
+    code = main(["size", str(cycle), "-o", str(out), "-q"])
+    text, err = capsys.readouterr()
+    assert code == 1 and err == ""
+    assert "lift-off: the right wheel lifts off at t = 0.00 s" in text
+    summary_text = (out / "summary.json").read_text()
+    summary = json.loads(summary_text, parse_constant=lambda c: pytest.fail(f"JSON holds {c}"))
+    spans = summary["stability"]["lift_off"]
+    assert spans[0]["contact"] == "wheel_right" and spans[0]["start"]["value"] == 0.0
+    assert summary["wheels"]["peak_traction_use"]["right_wheel"] == \
+        {"value": None, "unit": "1", "bound": "+inf"}
+    csv = (out / "timeseries.csv").read_text().splitlines()
+    col = csv[0].split(",").index("right traction use")
+    assert all(row.split(",")[col] == "lift-off" for row in csv[1:])
+    assert all(math.isfinite(float(v)) for v in csv[1].split(",")[:col])
+    html = (out / "report.html").read_text()
+    assert "Lift-off: wheel_right lifts off at t = 0.00 s" in html
+    assert "traction" in html and "FAIL" in html

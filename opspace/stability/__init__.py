@@ -11,8 +11,8 @@
 
 from .contacts import (GRAVITY, ContactLoads, StoppingLimits, SupportPolygon, normal_loads,
                        stopping_limits, support_polygon, tip_angle, traction_use, zmp)
-from ._support import (SupportLoads, SupportModel, check_standing, support_loads,
-                       support_model)
+from ._support import (SupportLoads, SupportModel, check_standing, describe_lift_off,
+                       lift_off_spans, support_loads, support_model)
 from .wrench import GroundWrench, StabilityTrack, ground_wrench, stability_track, tyre_forces
 
 __all__ = [
@@ -25,7 +25,9 @@ __all__ = [
     "SupportModel",
     "SupportPolygon",
     "check_standing",
+    "describe_lift_off",
     "ground_wrench",
+    "lift_off_spans",
     "normal_loads",
     "stability_track",
     "stopping_limits",

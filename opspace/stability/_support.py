@@ -428,3 +428,30 @@ def check_standing(robot):
     if bad:
         raise ConfigError(f"{where}: the centre of mass lies outside the support polygon at "
                           f"{'; '.join(bad)}: the robot tips over standing still")
+
+
+def lift_off_spans(t, lifted, names):
+    """Where contacts carry no load: [{"contact", "start", "end"}] per unbroken run
+    of lifted samples (s; `end` the last lifted sample), in time order.
+
+    t (n,) s; lifted (n, k) bool; names: k contact names.
+    """
+    t = np.asarray(t, dtype=float)
+    lifted = np.asarray(lifted, dtype=bool)
+    spans = []
+    for k, name in enumerate(names):
+        x = np.concatenate([[False], lifted[:, k], [False]]).astype(int)
+        starts, ends = np.flatnonzero(np.diff(x) == 1), np.flatnonzero(np.diff(x) == -1) - 1
+        spans += [{"contact": name, "start": float(t[a]), "end": float(t[b])}
+                  for a, b in zip(starts, ends)]
+    return sorted(spans, key=lambda s: (s["start"], s["contact"]))
+
+
+def describe_lift_off(spans, limit=3):
+    """Lift-off spans in words: "wheel_right lifts off at t = 3.20 s (to 3.85 s)"."""
+    if not spans:
+        return "no contact lifts off"
+    parts = [f"{s['contact']} lifts off at t = {s['start']:.2f} s"
+             + (f" (to {s['end']:.2f} s)" if s["end"] > s["start"] else "") for s in spans[:limit]]
+    more = len(spans) - limit
+    return "; ".join(parts) + (f"; and {more} more" if more > 0 else "")

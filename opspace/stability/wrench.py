@@ -124,7 +124,7 @@ class StabilityTrack:
     (`polygon.edges`); loads: SupportLoads, N (n, k) N per contact in
     `robot.contacts` order, under the robot's load model; traction (n, 2):
     |F_t| / (μ N) per drive wheel (≥ 1 means the wheel slips; inf where it has
-    lifted off); tyre_force (n, 2, 2) N: (F_x, F_y) each drive tyre supplies;
+    lifted off, nan where the robot tips); tyre_force (n, 2, 2) N: (F_x, F_y) each drive tyre supplies;
     wrench: GroundWrench; polygon: the chassis' support polygon.
     """
 
@@ -176,8 +176,10 @@ def stability_track(robot, qs, nus, nu_dots, wheel_force_x, *, mu=None, floor=No
         f_y = f_y - _rolling_parts(robot, qs, nus)[1][:, :, 1].sum(axis=1, keepdims=True)
     F_x = np.asarray(wheel_force_x, dtype=float)
     F_y = f_y * share
-    # where the robot tips (ZMP outside the polygon) the loads are nan: no grip
+    # inf where a wheel has lifted off; nan where the robot tips (ZMP outside the
+    # polygon: no load distribution exists)
     use = traction_use(np.hypot(F_x, F_y), np.where(np.isfinite(N), N, 0.0), mu)
+    use = np.where(loads.supported[:, None], use, np.nan)
     return StabilityTrack(zmp=p, margin=np.asarray(margin), edge=np.asarray(edge), loads=loads,
                           traction=use, wrench=w, polygon=polygon,
                           tyre_force=np.stack([F_x, F_y], axis=-1))
