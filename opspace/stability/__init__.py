@@ -13,7 +13,8 @@ from .contacts import (GRAVITY, ContactLoads, StoppingLimits, SupportPolygon, no
                        stopping_limits, support_polygon, tip_angle, traction_use, zmp)
 from ._support import (SupportLoads, SupportModel, check_standing, describe_lift_off,
                        lift_off_spans, support_loads, support_model)
-from .wrench import GroundWrench, StabilityTrack, ground_wrench, stability_track, tyre_forces
+from .wrench import (GroundWrench, StabilityTrack, ground_wrench, stability_figures,
+                     stability_track, tyre_forces)
 
 __all__ = [
     "GRAVITY",
@@ -29,6 +30,7 @@ __all__ = [
     "ground_wrench",
     "lift_off_spans",
     "normal_loads",
+    "stability_figures",
     "stability_track",
     "stopping_limits",
     "support_loads",
