@@ -44,9 +44,11 @@ def test_tricycle_loads_by_moment_balance(tmp_path, x_caster, com_x, a):
     m, W = robot.total_mass(), robot.total_mass() * G
     import pinocchio as pin
     x_c, y_c, h = pin.centerOfMass(robot.model, robot.model.createData(), q)
-    J_s = 0.006                     # the wheels' spin momentum rate 2 J_s a / r pitches too
-    # about the axle (y):  N_k x_k = W x_c − m a h − 2 J_s a / r
-    N_k = (W * x_c - m * a * h - 2 * J_s * a / r) / x_caster
+    # the spin momentum rate of the wheels and rotors, 2 (J_s + J_m G) a / r, pitches
+    # too (Euler's equation of the spinning parts; J_s = 0.006, J_m = 2e-5, G = 20)
+    J = 0.006 + 2e-5 * 20.0
+    # about the axle (y):  N_k x_k = W x_c − m a h − 2 J a / r
+    N_k = (W * x_c - m * a * h - 2 * J * a / r) / x_caster
     # vertical balance and moments about the centre line (x):
     #   N_r + N_l = W − N_k,   b (N_l − N_r) + 0.05 N_k = W y_c
     S, D = W - N_k, (W * y_c - 0.05 * N_k) / b
