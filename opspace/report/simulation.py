@@ -11,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ._views import simulation_view
 from .sizing import CAUTIONS, _finite
 
 __all__ = ["SIMULATION_ASSUMPTIONS", "simulation_html", "simulation_text",
@@ -154,6 +155,8 @@ def simulation_html(run, result, images, *, compare=None):
             page.para(f"Lift-off: {sp['wheel']} from t = {sp['start']['value']:.2f} s to "
                       f"{sp['end']['value']:.2f} s (no grip there: traction use unbounded).")
 
+    page.heading("3-D view")
+    page.raw(simulation_view(run, result))
     page.heading("Figures")
     captions = {
         "tracking_error.png": "Tool position (and orientation) error over the run, with the "

@@ -8,6 +8,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..stability import lift_off_spans
+from ._views import sizing_view
 from .html import Page, fmt
 from .text import losses as _losses
 
@@ -451,6 +452,8 @@ def sizing_html(result, *, progress=None):
             page.para(f"Shortest stop from {s.speed:g} m/s with the arm in the least-margin pose "
                       f"and the payload: none; no deceleration keeps the robot upright with "
                       f"grip ({s.limited_by}).")
+    page.heading("3-D view")
+    page.raw(sizing_view(result))
     page.heading("Drive as described (robot file)")
     d = result.described
     page.table(["figure", "right wheel", "left wheel", "unit"], [
