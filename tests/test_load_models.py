@@ -59,54 +59,77 @@ def test_tricycle_loads_by_moment_balance(tmp_path, x_caster, com_x, a):
 
 
 # --------------------------------------------------------------------------- sprung wheels
-def _symmetric_sprung(W, P=100.0, ks=2.0e4, T=0.01, kt=2.0e5, kc=1.0e5, l=0.3, b=0.25):
+def _symmetric_sprung(W, P=100.0, ks=2.0e4, T=0.01, s0=0.004, kt=2.0e5, kc=1.0e5):
     """Hand solution: drive wheels at (0, ±b), casters at (±l, 0), CoP at the
     centre.  By symmetry N_r = N_l = N_d and the chassis sinks by w without
-    tilting: casters N_c = k_c w each, 2 N_d(w) + 2 k_c w = W, with N_d(w) the
-    series law of tyre k_t and spring (P, k_s, T)."""
+    tilting: casters N_c = k_c w each, 2 N_d + 2 k_c w = W.  The drive wheel
+    (tyre k_t in series with the spring): at w = 0 the spring is compressed by
+    s0 and pushes F0 = P + k_s s0; for w >= 0 tyre and spring give way together
+    (1/k_eq = 1/k_t + 1/k_s), N_d = F0 + k_eq w, until the spring has
+    compressed by T: N_d = P + k_s T, then the tyre alone, slope k_t."""
     k_eq = 1.0 / (1.0 / kt + 1.0 / ks)
-    # topped out (spring on its stop, tyre alone): N_d = k_t w
-    w = W / (2 * kt + 2 * kc)
-    if kt * w > P:               # spring travelling: N_d = P + k_eq (w − P/k_t)
-        w = (W - 2 * P + 2 * k_eq * P / kt) / (2 * k_eq + 2 * kc)
-        Fb = P + ks * T
-        if P + k_eq * (w - P / kt) > Fb:    # bottomed: N_d = F_b + k_t (w − F_b/k_t − T)
-            w = (W - 2 * Fb + 2 * kt * (Fb / kt + T)) / (2 * kt + 2 * kc)
-            return Fb + kt * (w - Fb / kt - T), kc * w, "bottomed"
-        return P + k_eq * (w - P / kt), kc * w, "travel"
-    return kt * w, kc * w, "topped"
+    F0, Fb = P + ks * s0, P + ks * T
+    w = (W - 2 * F0) / (2 * k_eq + 2 * kc)          # spring travelling
+    assert w >= 0.0
+    if F0 + k_eq * w <= Fb:
+        return F0 + k_eq * w, kc * w, "travel"
+    w_b = (Fb - F0) / k_eq                          # bottomed: N_d = F_b + k_t (w − w_b)
+    w = (W - 2 * Fb + 2 * kt * w_b) / (2 * kt + 2 * kc)
+    return Fb + kt * (w - w_b), kc * w, "bottomed"
 
 
-@pytest.mark.parametrize("W,state", [(150.0, "topped"), (600.0, "travel"), (4000.0, "bottomed")])
+@pytest.mark.parametrize("W,state", [(600.0, "travel"), (5000.0, "bottomed")])
 def test_sprung_drive_wheels_hand_solved(W, state):
     N_d, N_c, got = _symmetric_sprung(W)
     assert got == state
     P = [[0, -0.25], [0, 0.25], [0.3, 0], [-0.3, 0]]
     k = [2.0e5, 2.0e5, 1.0e5, 1.0e5]
-    model = _model("sprung", P, k, preload=100.0, spring_rate=2.0e4, travel=0.01)
+    model = _model("sprung", P, k, preload=100.0, spring_rate=2.0e4, travel=0.01,
+                   compression=0.004)
     loads = support_loads(model, [0.0, 0.0], W)
     np.testing.assert_allclose(loads.N[0], [N_d, N_d, N_c, N_c], rtol=1e-10)
-    # preload plus rate times the spring's deflection until the stops: the spring
-    # deflection s = w − N_d / k_t (chassis sink less the tyre's compression)
+    # preload plus rate times the spring's compression until the stops: s = s0 + the
+    # chassis sink w less the tyre's extra compression (N_d − F0) / k_t
     w = N_c / 1.0e5
-    s = w - N_d / 2.0e5
+    s = 0.004 + w - (N_d - (100.0 + 2.0e4 * 0.004)) / 2.0e5
     if state == "travel":
         np.testing.assert_allclose(N_d, 100.0 + 2.0e4 * s, rtol=1e-10)
         assert 0 < s < 0.01
-    assert loads.topped_out[0, 0] == (state == "topped")
-    assert loads.bottomed[0, 0] == (state == "bottomed")
+    assert loads.bottomed[0, 0] == (state == "bottomed") and not loads.topped_out.any()
+
+
+def test_sprung_wheel_tops_out_on_a_dip():
+    """A dip e under the right drive wheel: its spring extends, the load falls
+    by about k_eq e, and once the spring reaches its top stop (load below the
+    preload) the wheel is topped out; a deeper dip lifts it off.  Statics hold
+    throughout (three equilibrium equations), and the left wheel keeps its load
+    above the right's."""
+    P = [[0, -0.25], [0, 0.25], [0.3, 0.2], [0.3, -0.2], [-0.3, 0.2], [-0.3, -0.2]]
+    model = _model("sprung", P, 2.0e5, preload=80.0, spring_rate=2.0e4, travel=0.01,
+                   compression=0.003)
+    A = np.vstack([np.ones(6), np.asarray(P, float).T])
+    states = []
+    for e in (0.0, 0.002, 0.0045, 0.02):
+        loads = support_loads(model, [0.0, 0.0], 600.0, floor=[e, 0, 0, 0, 0, 0])
+        np.testing.assert_allclose(A @ loads.N[0], [600.0, 0.0, 0.0], atol=1e-8)
+        states.append((loads.lifted[0, 0], loads.topped_out[0, 0], loads.N[0, 0]))
+    assert [s[:2] for s in states] == [(False, False), (False, False), (False, True),
+                                       (True, False)]
+    assert states[0][2] > states[1][2] > 80.0 > states[2][2] > states[3][2] == 0.0
 
 
 def test_sprung_wheel_lifts_off_not_crash():
-    """CoP far to the left: the right drive wheel's spring tops out and the wheel
-    lifts (N = 0) while the robot still stands on the other contacts."""
+    """CoP far to the left, beyond the left casters' line (y = 0.2) towards the
+    left drive wheel (y = 0.25): the right side lifts, the right drive wheel with
+    it (N = 0), while the robot still stands on the left contacts."""
     P = [[0, -0.25], [0, 0.25], [0.3, 0.2], [0.3, -0.2], [-0.3, 0.2], [-0.3, -0.2]]
-    model = _model("sprung", P, 2.0e5, preload=80.0, spring_rate=2.0e4, travel=0.01)
-    loads = support_loads(model, [[0.0, 0.18], [0.0, 0.0]], [500.0, 500.0])
+    model = _model("sprung", P, 2.0e5, preload=80.0, spring_rate=2.0e4, travel=0.01,
+                   compression=0.005)
+    loads = support_loads(model, [[0.0, 0.24], [0.0, 0.0]], [500.0, 500.0])
     assert loads.lifted[0, 0] and loads.N[0, 0] == 0.0 and loads.supported.all()
     A = np.vstack([np.ones(6), np.asarray(P, float).T])
     # equilibrium (statics) holds with the wheel lifted
-    np.testing.assert_allclose(A @ loads.N[0], 500.0 * np.array([1, 0.0, 0.18]), atol=1e-8)
+    np.testing.assert_allclose(A @ loads.N[0], 500.0 * np.array([1, 0.0, 0.24]), atol=1e-8)
     assert not loads.lifted[1].any()
 
 

@@ -7,6 +7,7 @@ Keys (SI units; README's reference section documents each)::
                stiffness = 2.0e5      N/m, every contact (and the default of the others)
                drive_stiffness        N/m, each drive wheel's tyre (default: stiffness)
                preload, spring_rate, travel   N, N/m, m: sprung drive wheels (model "sprung")
+               compression = travel / 2       m, the springs' compression at ride height
                unevenness = 0         m, a dip or step under any one contact
     [[caster]] stiffness              N/m (default: [support] stiffness)
     [[rocker]] casters = ["caster_1", "caster_2"], pivot = [x, y]
@@ -47,6 +48,7 @@ class SupportSpec:
     preload: float = math.nan
     spring_rate: float = math.nan
     travel: float = math.nan
+    compression: float = math.nan
     unevenness: float = 0.0
     rockers: tuple = ()
 
@@ -68,7 +70,7 @@ def read_support(path, doc, casters, caster_stiffness, weight):
         s.fail("model", f"must be one of {', '.join(repr(m) for m in MODELS)}, got {model!r}")
     k = s.number("stiffness", DEFAULT_STIFFNESS, unit="N/m", lo=0.0, lo_open=True)
     if model == "equal":
-        for key in ("drive_stiffness", "preload", "spring_rate", "travel"):
+        for key in ("drive_stiffness", "preload", "spring_rate", "travel", "compression"):
             if s.has(key):
                 s.fail(key, f"needs model = \"stiffness\" or \"sprung\" (model is {model!r}: "
                             "every contact has the one `stiffness`)")
@@ -78,17 +80,18 @@ def read_support(path, doc, casters, caster_stiffness, weight):
                               "\"stiffness\" or \"sprung\" (the \"equal\" model gives every "
                               "contact the one [support] stiffness)")
     k_drive = s.number("drive_stiffness", k, unit="N/m", lo=0.0, lo_open=True)
-    spring = (math.nan,) * 3
+    spring = (math.nan,) * 4
     if model == "sprung":
         spring = (s.number("preload", unit="N", lo=0.0),
                   s.number("spring_rate", unit="N/m", lo=0.0, lo_open=True),
                   s.number("travel", unit="m", lo=0.0, lo_open=True))
+        spring += (s.number("compression", spring[2] / 2, unit="m", lo=0.0, hi=spring[2]),)
         if spring[0] >= weight:
             s.fail("preload", f"must be below the robot's weight ({weight:.1f} N): a drive "
                               f"wheel spring cannot be preloaded harder than the whole robot "
                               f"presses, got {spring[0]:g} N")
     else:
-        for key in ("preload", "spring_rate", "travel"):
+        for key in ("preload", "spring_rate", "travel", "compression"):
             if s.has(key):
                 s.fail(key, f"needs model = \"sprung\", got model = {model!r}")
     unevenness = s.number("unevenness", 0.0, unit="m", lo=0.0)
@@ -96,7 +99,8 @@ def read_support(path, doc, casters, caster_stiffness, weight):
     stiff = (k_drive, k_drive) + tuple(k if v is None else v for v in caster_stiffness)
     rockers = _read_rockers(path, doc.get("rocker", []), casters)
     return SupportSpec(model=model, stiffness=stiff, preload=spring[0], spring_rate=spring[1],
-                       travel=spring[2], unevenness=unevenness, rockers=rockers)
+                       travel=spring[2], compression=spring[3], unevenness=unevenness,
+                       rockers=rockers)
 
 
 def _read_rockers(path, entries, casters):

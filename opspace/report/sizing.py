@@ -141,6 +141,7 @@ def sizing_summary(result):
             "min_normal_load": {c.name: _q(float(np.nanmin(st.loads.N[:, k])), "N")
                                 for k, c in enumerate(robot.contacts)},
             "load_model": st.loads.model,
+            "floor_and_friction": result.floor.to_dict() if result.floor else None,
             "lift_off": [{"contact": sp["contact"], "start": _q(sp["start"], "s"),
                           "end": _q(sp["end"], "s")}
                          for sp in lift_off_spans(ev.t, st.loads.lifted,
@@ -369,6 +370,19 @@ def _stability_paragraphs(page, result):
 
     robot, ev = result.robot, result.evaluation
     page.para(f"Load model: {support_model(robot).describe()}.")
+    fr = result.floor
+    if fr is not None:
+        page.para(f"The cycle's {fr.samples} critical instants on the floors the description "
+                  f"allows: friction μ = {fr.mu_worst:g} (nominal {fr.mu_nominal:g}) and a "
+                  f"{fr.unevenness * 1000:g} mm dip or step under each contact in turn (chassis "
+                  f"tilt included in the tip-over margin).")
+        trac = "lift-off" if fr.lift_off else fmt(fr.traction_worst)
+        page.table(["figure", "nominal (flat, nominal μ)", "worst floor", "worst case"], [
+            ["largest traction use [-]", fmt(fr.traction_nominal), trac,
+             f"{fr.traction_wheel}, {fr.traction_case}, t = {fr.traction_t:.2f} s"],
+            ["least tip-over margin [mm]", fmt(fr.margin_nominal * 1000),
+             fmt(fr.margin_worst * 1000), f"{fr.margin_case}, t = {fr.margin_t:.2f} s"]],
+            left=(0, 3))
     spans = lift_off_spans(ev.t, ev.stability.loads.lifted, [c.name for c in robot.contacts])
     if spans:
         page.para(f"Lift-off: {describe_lift_off(spans, limit=8)}. A lifted drive wheel has no "

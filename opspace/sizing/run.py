@@ -27,6 +27,7 @@ from ..description.duty import DutyCycle, check_against_robot, load_duty_cycle
 from ..dynamics.joint_space import drive_inertia
 from ..errors import ConfigError
 from ..model import MobileManipulator, load_robot
+from ._floor import worst_floor
 from .cycle import CycleEvaluation, evaluate_cycle, start_pose
 from .candidates import Criterion, evaluate_catalogue
 from .drives import WheelDuty, drive_figures
@@ -35,7 +36,7 @@ from .worst_case import critical_instants, shortest_stop, worst_poses
 __all__ = ["SizingResult", "size"]
 
 WHEELS = ("right wheel", "left wheel")
-ROBOT_CRITERIA = ("traction", "tip-over")
+ROBOT_CRITERIA = ("traction", "tip-over", "traction (worst floor)", "tip-over (worst floor)")
 
 
 @dataclass(frozen=True, eq=False)
@@ -70,6 +71,7 @@ class SizingResult:
     message: str
     catalogue: object = None
     contact: object = None
+    floor: object = None        # FloorRange: the critical instants on the worst floor
 
     @property
     def passing(self):
@@ -129,6 +131,26 @@ def _robot_criteria(robot, ev):
     return traction, tip
 
 
+def _floor_criteria(robot, fr):
+    """Traction and tip-over rows on the worst floor the description allows (none
+    when its friction range and unevenness leave only the nominal floor)."""
+    if fr.mu_worst == fr.mu_nominal and fr.unevenness == 0.0:
+        return ()
+    where = f"μ = {fr.mu_worst:g}"
+    if fr.lift_off:
+        note = (f"lift-off: {fr.traction_wheel} lifts off at t = {fr.traction_t:.2f} s on a "
+                f"{fr.traction_case} ({where}): no grip, traction use unbounded")
+    else:
+        note = f"{fr.traction_wheel} at t = {fr.traction_t:.2f} s, {fr.traction_case}, {where}"
+    traction = Criterion.at_most("traction (worst floor)", fr.traction_worst, 1.0, "1", note=note)
+    d, d0 = fr.margin_worst, fr.margin_nominal
+    tip = Criterion(name="tip-over (worst floor)", value=d, limit=0.0, unit="m",
+                    margin=d / d0 if d0 > 0 else -np.inf, passed=bool(d >= 0.0),
+                    note=f"ZMP {d * 1000:.0f} mm inside at t = {fr.margin_t:.2f} s, "
+                         f"{fr.margin_case} (chassis tilt included); flat {d0 * 1000:.0f} mm")
+    return traction, tip
+
+
 def _load_inertia(robot, duty):
     """J_load per wheel for straight motion: M_w[0,0] + M_w[0,1] minus the rotor."""
     q = robot.configurations(start_pose(duty, robot)[None])[0]
@@ -170,7 +192,8 @@ def size(duty, *, robot=None, catalogue=None, search=True, progress=None):
     drv = robot.description.drive
     described = drive_figures(wd, gear_ratio=drv.gear_ratio, efficiency=drv.efficiency,
                               inertia=drv.rotor_inertia)
-    extra = _robot_criteria(robot, ev)
+    floor = worst_floor(robot, ev)
+    extra = _robot_criteria(robot, ev) + _floor_criteria(robot, floor)
     J_load = _load_inertia(robot, duty)
     sweeps = ()
     if catalogue is not None:
@@ -188,7 +211,8 @@ def size(duty, *, robot=None, catalogue=None, search=True, progress=None):
     result = SizingResult(duty=duty, robot=robot, evaluation=ev, wheel_duty=wd, described=described,
                         robot_criteria=extra, sweeps=sweeps, load_inertia=J_load,
                         instants=instants, worst_torque=worst_t, worst_tip=worst_m, stop=stop,
-                        status="", message="", catalogue=catalogue, contact=contact)
+                        status="", message="", catalogue=catalogue, contact=contact,
+                        floor=floor)
     status, message = _verdict(result)
     object.__setattr__(result, "status", status)
     object.__setattr__(result, "message", message)

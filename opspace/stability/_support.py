@@ -23,11 +23,14 @@ stays on one linear piece of its law.  Laws:
 
 * contact of vertical stiffness k:                 F = k max(δ, 0)
 * sprung drive wheel (tyre k_t in series with a spring of preload P, rate
-  k_s and travel T between a top stop and a bump stop): the tyre alone
-  (slope k_t) until F = P, then both (1/k = 1/k_t + 1/k_s) until the spring
-  has travelled T, F_b = P + k_s T, then the tyre alone again (bottomed out).
-  Below P the spring rests on its top stop ("topped out"); at F = 0 the
-  wheel lifts off.
+  k_s and travel T between a top stop and a bump stop, compressed by s₀ at
+  ride height, δ = 0, where it pushes with F₀ = P + k_s s₀): the spring force
+  is P + k_s s for a compression s in [0, T], so about δ = 0 both give way,
+  F = F₀ + k_eq δ with 1/k_eq = 1/k_t + 1/k_s, until the spring reaches its
+  bump stop (s = T, F_b = P + k_s T: bottomed out, the tyre alone beyond,
+  slope k_t) or its top stop (s = 0, F = P at δ = −k_s s₀ / k_eq: topped
+  out, the tyre alone below, slope k_t, down to F = 0 where the wheel lifts
+  off, P / k_t lower).
 * rocker: a pivot at p between contacts a and b shares its load by the
   lever rule, N_a = F (|p − b| / |a − b|) (moment balance about the pivot),
   N_b = F − N_a; its stiffness is 1 / (w_a²/k_a + w_b²/k_b) and its floor
@@ -75,9 +78,9 @@ class SupportModel:
     positions : ndarray (k, 2)   contact points in the base frame, m
     driven : ndarray of bool (k,)
     stiffness : ndarray (k,)     vertical stiffness of each contact (tyre, caster), N/m
-    preload, spring_rate, travel : float
-        Sprung drive wheels: spring force at the top stop N, rate N/m, travel m
-        (nan unless kind is "sprung").
+    preload, spring_rate, travel, compression : float
+        Sprung drive wheels: spring force at the top stop N, rate N/m, travel m,
+        compression at ride height m (nan unless kind is "sprung").
     rockers : tuple of (a, b, pivot)
         Contact indices a, b sharing a pivot at pivot (x, y), m.
     unevenness : float
@@ -92,6 +95,7 @@ class SupportModel:
     preload: float = math.nan
     spring_rate: float = math.nan
     travel: float = math.nan
+    compression: float = math.nan
     rockers: tuple = ()
     unevenness: float = 0.0
     _elements: tuple = field(default=None, repr=False)
@@ -114,12 +118,18 @@ class SupportModel:
             return False
         return abs(np.linalg.det(np.column_stack([np.ones(3), P]))) > 1e-9 * np.ptp(P) ** 2
 
+    @property
+    def ride_load(self):
+        """Sprung drive wheels: the spring force at ride height, P + k_s s₀, N."""
+        return self.preload + self.spring_rate * self.compression
+
     def describe(self) -> str:
         """One sentence naming the model (for every report and summary)."""
         text = MODEL_NAMES[self.kind]
         if self.kind == "sprung":
             text += (f" (preload {self.preload:g} N, rate {self.spring_rate:g} N/m, travel "
-                     f"{self.travel * 1000:g} mm)")
+                     f"{self.travel * 1000:g} mm, {self.compression * 1000:g} mm compressed at "
+                     f"ride height: {self.ride_load:.0f} N per drive wheel there)")
         for a, b, p in self.rockers:
             text += f"; {self.names[a]} and {self.names[b]} on a rocker pivoting at " \
                     f"({p[0]:g}, {p[1]:g}) m"
@@ -138,7 +148,9 @@ class SupportModel:
         if self.kind == "sprung":
             out["drive_spring"] = {"preload": {"value": self.preload, "unit": "N"},
                                    "rate": {"value": self.spring_rate, "unit": "N/m"},
-                                   "travel": {"value": self.travel, "unit": "m"}}
+                                   "travel": {"value": self.travel, "unit": "m"},
+                                   "compression": {"value": self.compression, "unit": "m"},
+                                   "ride_load": {"value": self.ride_load, "unit": "N"}}
         if self.rockers:
             out["rockers"] = [{"contacts": [self.names[a], self.names[b]],
                                "pivot": {"value": [float(v) for v in p], "unit": "m"}}
@@ -150,10 +162,10 @@ def _law(model, i):
     """(breakpoints, forces at them, slopes) of contact i's force law, N and m."""
     k = float(model.stiffness[i])
     if model.kind == "sprung" and model.driven[i]:
-        P, ks, T = model.preload, model.spring_rate, model.travel
-        Fb = P + ks * T
+        P, ks, T, s0 = model.preload, model.spring_rate, model.travel, model.compression
         k_eq = 1.0 / (1.0 / k + 1.0 / ks)
-        return [0.0, P / k, Fb / k + T], [0.0, P, Fb], [k, k_eq, k]
+        top, bump = -ks * s0 / k_eq, ks * (T - s0) / k_eq    # spring on its top / bump stop
+        return [top - P / k, top, bump], [0.0, P, P + ks * T], [k, k_eq, k]
     return [0.0], [0.0], [k]
 
 
@@ -220,7 +232,7 @@ def _force(bp, Fb, sl, d):
     b = np.take_along_axis(np.broadcast_to(bp, d.shape + bp.shape[-1:]), i[..., None], -1)[..., 0]
     f = np.take_along_axis(np.broadcast_to(Fb, d.shape + bp.shape[-1:]), i[..., None], -1)[..., 0]
     s = np.take_along_axis(np.broadcast_to(sl, d.shape + bp.shape[-1:]), i[..., None], -1)[..., 0]
-    on = d > 0.0
+    on = d > bp[..., 0]
     return np.where(on, f + s * (d - b), 0.0), np.where(on, s, 0.0), i
 
 
@@ -235,7 +247,7 @@ def _energy(bp, Fb, sl, d):
     rows = np.arange(len(d))
     x = d - bp[rows, i]
     psi = Psi[rows, i] + Fb[rows, i] * x + 0.5 * sl[rows, i] * x * x
-    return float(np.sum(np.where(d > 0.0, psi, 0.0)))
+    return float(np.sum(np.where(d > bp[:, 0], psi, 0.0)))
 
 
 def _newton(A, bp, Fb, sl, b, e, u):
@@ -267,7 +279,7 @@ def _polish(A, bp, Fb, sl, b, e, u):
     d = A.T @ u - e
     _, s, seg = _force(bp, Fb, sl, d[None])
     s, seg = s[0], seg[0]
-    on = d > 0.0
+    on = d > bp[:, 0]
     rows = np.arange(len(d))
     b_seg, f_seg = bp[rows, seg], Fb[rows, seg]
     H = (A * s) @ A.T
@@ -370,7 +382,7 @@ def _solve_all(A, bp, Fb, sl, B, e, supported, F, U):
     rhs = B[idx] - (f_seg - s_seg * (e[idx] + b_seg)) @ A.T
     u = np.linalg.solve(H, rhs.T).T
     d = u @ A - e[idx]
-    ok = np.all((d >= b_seg - 1e-15) & (d <= hi + 1e-15) & (d > 0.0), axis=1)
+    ok = np.all((d >= b_seg - 1e-15) & (d <= hi + 1e-15) & (d > bp[:, 0]), axis=1)
     F[idx[ok]] = f_seg + s_seg * (d[ok] - b_seg)
     U[idx[ok]] = u[ok]
     for j in idx[~ok]:
@@ -392,7 +404,7 @@ def support_model(robot) -> SupportModel:
         positions=np.array([c.position for c in robot.contacts]),
         driven=np.array([c.driven for c in robot.contacts]),
         stiffness=np.array(spec.stiffness, dtype=float), preload=spec.preload,
-        spring_rate=spec.spring_rate, travel=spec.travel,
+        spring_rate=spec.spring_rate, travel=spec.travel, compression=spec.compression,
         rockers=tuple((a, b, np.array(p)) for a, b, p in spec.rockers),
         unevenness=spec.unevenness)
     robot._support_model = model
