@@ -271,3 +271,37 @@ def test_traction_use_turn_on_the_spot_with_caster_resistance(tmp_path):
     np.testing.assert_allclose(F[0], F_x, rtol=1e-9)
     np.testing.assert_allclose(tr.tyre_force[0, :, 1], [F_y, F_y], rtol=1e-9)
     np.testing.assert_allclose(tr.traction[0], np.hypot(F_x, F_y) / (0.6 * W / 4), rtol=1e-9)
+
+
+# --------------------------------------------------------------------------- floor ranges
+def test_worst_floor_dip_under_a_drive_wheel_by_hand(tmp_path):
+    """Sizing on the worst floor: the diamond layout (drive wheels at (0, ±b),
+    casters at (±l, 0)), equal stiffness k, a dip e allowed under any contact and
+    friction down to μ_low.  By hand (deflection plane, see
+    test_floor_dip_unloads_a_stiff_drive_wheel; the pitch moment only loads the
+    casters at x = ±l), a dip under a drive wheel leaves each drive wheel
+    N_d = W/4 − k e/4, the least of all cases, and each must push m a / 2
+    (Newton; no rolling resistance): worst use = (m a / 2) / (μ_low N_d)."""
+    from opspace.description.duty import load_duty_cycle
+    from opspace.sizing import size
+    from conftest import write_toml
+
+    k, e, a = 2.0e5, 0.001, 1.0
+    doc = base_doc(base__com=[0.05, 0.0, 0.25], support={"stiffness": k, "unevenness": e},
+                   ground={"friction": 0.6, "friction_range": [0.3, 0.8]})
+    robot = make_robot(tmp_path, two_link_urdf(), doc)
+    cycle = write_toml(tmp_path / "cycle.toml", {
+        "cycle": {"name": "floor", "robot": "robot.toml", "cycles_per_hour": 10.0,
+                  "sample_rate": 100.0},
+        "segment": [{"kind": "straight", "distance": 1.0, "speed": 0.5, "acceleration": a}]})
+    result = size(load_duty_cycle(cycle, robot=robot), robot=robot, search=False)
+    fr = result.floor
+    m = robot.total_mass()
+    W = m * G
+    np.testing.assert_allclose(fr.traction_worst, (m * a / 2) / (0.3 * (W / 4 - k * e / 4)),
+                               rtol=1e-9)
+    np.testing.assert_allclose(fr.traction_nominal, (m * a / 2) / (0.6 * W / 4), rtol=1e-9)
+    assert fr.traction_case.startswith("1 mm dip under wheel_")
+    assert fr.margin_worst <= fr.margin_nominal
+    names = [c.name for c in result.robot_criteria]
+    assert names == ["traction", "tip-over", "traction (worst floor)", "tip-over (worst floor)"]

@@ -384,10 +384,16 @@ def _stability_paragraphs(page, result):
              fmt(fr.margin_worst * 1000), f"{fr.margin_case}, t = {fr.margin_t:.2f} s"]],
             left=(0, 3))
     spans = lift_off_spans(ev.t, ev.stability.loads.lifted, [c.name for c in robot.contacts])
+    driven = {c.name for c in robot.contacts if c.driven}
     if spans:
-        page.para(f"Lift-off: {describe_lift_off(spans, limit=8)}. A lifted drive wheel has no "
-                  f"grip: its traction use is unbounded (shown as lift-off in the figure, "
-                  f"null with bound +inf in summary.json, \"lift-off\" in timeseries.csv).")
+        text = f"Lift-off: {describe_lift_off(spans, limit=8)}."
+        if any(sp["contact"] in driven for sp in spans):
+            text += (" A lifted drive wheel has no grip: its traction use is unbounded (shown "
+                     "as lift-off in the figure, null with bound +inf in summary.json, "
+                     "\"lift-off\" in timeseries.csv).")
+        else:
+            text += " No drive wheel lifts off (a lifted caster's load goes to the others)."
+        page.para(text)
 
 
 def _pose_drawings(result):
