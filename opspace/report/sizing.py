@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..stability import lift_off_spans
+from ..stability import lift_off_spans, support_model
 from ._views import sizing_view
 from .html import Page, fmt
 from .text import losses as _losses
@@ -141,6 +141,7 @@ def sizing_summary(result):
             "min_normal_load": {c.name: _q(float(np.nanmin(st.loads.N[:, k])), "N")
                                 for k, c in enumerate(robot.contacts)},
             "load_model": st.loads.model,
+            "load_model_parameters": support_model(robot).to_dict(),
             "floor_and_friction": result.floor.to_dict() if result.floor else None,
             "lift_off": [{"contact": sp["contact"], "start": _q(sp["start"], "s"),
                           "end": _q(sp["end"], "s")}

@@ -63,8 +63,9 @@ class FloorRange:
     def to_dict(self) -> dict:
         def q(v, unit):
             return {"value": v, "unit": unit}
-        return {"friction": {"nominal": self.mu_nominal, "worst": self.mu_worst},
-                "unevenness": q(self.unevenness, "m"), "critical_samples": self.samples,
+        return {"friction": {"nominal": q(self.mu_nominal, "1"), "worst": q(self.mu_worst, "1")},
+                "unevenness": q(self.unevenness, "m"),
+                "critical_samples": q(self.samples, "1"),
                 "traction_use": {"nominal": q(self.traction_nominal, "1"),
                                  "worst": q(self.traction_worst, "1"),
                                  "worst_case": self.traction_case,
