@@ -64,7 +64,7 @@ class _Progress:
 
 
 def _cmd_size(args):
-    from .description.duty import load_duty_cycle
+    from .description import load_duty_cycle
     from .model import load_robot
     from .report import write_sizing_report
     from .sizing import size
@@ -75,7 +75,7 @@ def _cmd_size(args):
     duty = load_duty_cycle(path, robot=robot)          # cross-checks before computing
     catalogue = args.catalogue
     if catalogue is not None:
-        from .description.catalogue import load_catalogue
+        from .description import load_catalogue
         catalogue = load_catalogue(catalogue)
     out = Path(args.output)
     if out.exists() and not out.is_dir():
@@ -104,9 +104,9 @@ def _cmd_size(args):
 
 
 def _cmd_simulate(args):
-    from .description.scenario import load_scenario
-    from .report.simulation import simulation_text, write_simulation_outputs
-    from .simulate import ScenarioRun, SimulationError
+    from .description import load_scenario
+    from .report import simulation_text, write_simulation_outputs
+    from .simulation import ScenarioRun, SimulationError
 
     path = Path(args.scenario) if args.scenario else demo_robot_path().with_name("pick.toml")
     scenario = load_scenario(path)

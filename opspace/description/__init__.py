@@ -1,15 +1,17 @@
 """Reading and validating the user's files (a sub-package, one module per file kind).
 
-- `robot`: the robot description TOML and its arm URDF.
-- `duty`: the duty-cycle TOML of `opspace size`.
-- `catalogue`: the motor-and-gearbox catalogue TOML.
+- `_robot`: the robot description TOML and its arm URDF.
+- `_duty`: the duty-cycle TOML of `opspace size`.
+- `_catalogue`: the motor-and-gearbox catalogue TOML.
+- `_scenario`: the simulation scenario TOML of `opspace simulate`.
 - `_toml`: shared reading/validation helpers (messages name file, key, value).
 """
 
-from .catalogue import Catalogue, Gearbox, Motor, load_catalogue
-from .duty import DutyCycle, Segment, load_duty_cycle
-from ._toml import Section, check_inertia, inertia_matrix, read_toml
-from .robot import (ArmJointDrive, BaseSpec, DriveSpec, Payload, RobotDescription, WheelSpec,
+from ._catalogue import Catalogue, Gearbox, Motor, load_catalogue
+from ._duty import DutyCycle, Segment, check_against_robot, load_duty_cycle, resolve_pose
+from ._scenario import Scenario, check_scenario, load_scenario
+from ._toml import Entry, Section, check_inertia, inertia_matrix, read_document, read_toml
+from ._robot import (ArmJointDrive, BaseSpec, DriveSpec, Payload, RobotDescription, WheelSpec,
                     arm_joint_names, arm_position_limits, load_arm_urdf, load_description,
                     read_payload)
 
@@ -17,23 +19,30 @@ __all__ = [
     "ArmJointDrive",
     "BaseSpec",
     "Catalogue",
+    "DriveSpec",
     "DutyCycle",
+    "Entry",
     "Gearbox",
     "Motor",
-    "Segment",
-    "DriveSpec",
     "Payload",
     "RobotDescription",
+    "Scenario",
     "Section",
+    "Segment",
     "WheelSpec",
     "arm_joint_names",
     "arm_position_limits",
+    "check_against_robot",
     "check_inertia",
+    "check_scenario",
     "inertia_matrix",
     "load_arm_urdf",
     "load_catalogue",
-    "load_duty_cycle",
     "load_description",
+    "load_duty_cycle",
+    "load_scenario",
+    "read_document",
     "read_payload",
     "read_toml",
+    "resolve_pose",
 ]

@@ -1,14 +1,17 @@
 """Stability of the wheeled base (a sub-package).
 
-- `contacts`: support polygon, ZMP from a ground wrench, normal loads per
-  contact (with lift-off), traction use, tip angle, stopping limits.
-- `wrench`: the total ground-reaction wrench of the robot from Pinocchio's
+- `_contacts`: support polygon, ZMP from a ground wrench, normal loads per
+  contact (with lift-off).
+- `_margins`: traction use, tip angle, stopping limits.
+- `_wrench`: the total ground-reaction wrench of the robot from Pinocchio's
   centroidal momentum rate and gravity, and the per-instant stability figures.
 """
 
-from .contacts import (GRAVITY, ContactLoads, StoppingLimits, SupportPolygon, normal_loads,
-                       stopping_limits, support_polygon, tip_angle, traction_use, zmp)
-from .wrench import GroundWrench, StabilityTrack, ground_wrench, stability_track, tyre_forces
+from .._common import GRAVITY
+from ._contacts import ContactLoads, SupportPolygon, normal_loads, support_polygon, zmp
+from ._margins import StoppingLimits, stopping_limits, tip_angle, traction_use
+from ._wrench import (GroundWrench, StabilityTrack, ground_wrench, merge_tracks, stability_track,
+                      tyre_forces)
 
 __all__ = [
     "GRAVITY",
@@ -18,6 +21,7 @@ __all__ = [
     "StoppingLimits",
     "SupportPolygon",
     "ground_wrench",
+    "merge_tracks",
     "normal_loads",
     "stability_track",
     "stopping_limits",

@@ -1,0 +1,169 @@
+"""Ground-reaction wrench of the whole robot and the stability figures it drives.
+
+Newton–Euler for the whole system (rigid bodies, ground the only external
+contact besides gravity):
+
+    f = m c̈ − m g⃗,        n_G = k̇_G
+
+with c the centre of mass, k_G the angular momentum about it, and g⃗ the
+gravity vector of the model (tilted on a ramp: the world frame is the ground's
+frame).  Pinocchio's `computeCentroidalMomentumTimeVariation` gives
+ḣ_G = (m c̈, k̇_G) in world-aligned axes at the COM (Orin, Goswami & Lee,
+"Centroidal dynamics of a humanoid robot", Autonomous Robots 35, 2013).  The
+moment about the base-frame origin o (on the ground below the axle middle) is
+n_o = n_G + (c − o) × f, and both are rotated into base axes.
+
+Neglected: the gyroscopic reaction of the motor rotors on the chassis (the
+armature terms have no body in the tree): about J_m G φ̈ N·m per wheel, of the
+order of 10⁻² N·m for the demo, a ZMP shift of tens of micrometres.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pinocchio as pin
+
+from ._contacts import ContactLoads, normal_loads, support_polygon, zmp
+from ._margins import traction_use
+
+__all__ = ["GroundWrench", "StabilityTrack", "ground_wrench", "merge_tracks", "stability_track",
+           "tyre_forces"]
+
+
+def tyre_forces(robot, qs, nus, nu_dots, Q):
+    """Longitudinal ground force on each drive wheel's tyre, (n, 2) N.
+
+    The wheel's own balance about its axle:  F_x,i = (Q_i − f_i − (J_s + J_m G²) φ̈_i) / r,
+    with Q_i the wheel torque, f_i its friction and rolling-resistance torque,
+    J_s the wheel's spin inertia and J_m G² the reflected rotor inertia.
+    """
+    from ..dynamics._joint_space import _friction_batch
+
+    d = robot.description
+    J = d.wheel.spin_inertia + d.drive.reflected_inertia
+    f = _friction_batch(robot, qs, nus)[:, :2]
+    return (np.asarray(Q)[:, :2] - f - J * np.asarray(nu_dots)[:, :2]) / robot.wheel_radius
+
+
+@dataclass(frozen=True)
+class GroundWrench:
+    """Total ground reaction on the robot, base axes, about the base origin.
+
+    force (n, 3) N, moment (n, 3) N·m, com (n, 3) m in the base frame.
+    """
+
+    force: np.ndarray
+    moment: np.ndarray
+    com: np.ndarray
+
+
+def ground_wrench(robot, qs, nus, nu_dots):
+    """Ground wrench at many states (or one: 1-D inputs give rows of one).
+
+    Parameters
+    ----------
+    qs : (n, model.nq) or (model.nq,); nus, nu_dots : (n, nv) or (nv,)
+
+    Returns
+    -------
+    GroundWrench   arrays (n, 3)
+    """
+    qs, nus, nu_dots = (np.atleast_2d(np.asarray(x, dtype=float)) for x in (qs, nus, nu_dots))
+    model, data, S = robot.model, robot.model.createData(), robot.S
+    n = qs.shape[0]
+    if nus.shape != (n, robot.nv) or nu_dots.shape != (n, robot.nv) or qs.shape[1] != model.nq:
+        raise ValueError(f"`qs`, `nus`, `nu_dots` must have shapes (n, {model.nq}), (n, {robot.nv}), "
+                         f"(n, {robot.nv}); got {qs.shape}, {nus.shape}, {nu_dots.shape}")
+    m = robot.total_mass()
+    g_vec = model.gravity.linear.copy()
+    V, A = nus.dot(S.T), nu_dots.dot(S.T)
+    force, moment, com = np.empty((n, 3)), np.empty((n, 3)), np.empty((n, 3))
+    for i in range(n):
+        dhg = pin.computeCentroidalMomentumTimeVariation(model, data, qs[i], V[i], A[i])
+        c_w = data.com[0]
+        f_w = dhg.linear - m * g_vec
+        x, y, cth, sth = qs[i, :4]
+        r = c_w - (x, y, 0.0)
+        n_w = dhg.angular + (r[1] * f_w[2] - r[2] * f_w[1], r[2] * f_w[0] - r[0] * f_w[2],
+                             r[0] * f_w[1] - r[1] * f_w[0])   # + r × f
+        R_T = np.array([[cth, sth, 0.0], [-sth, cth, 0.0], [0.0, 0.0, 1.0]])
+        force[i], moment[i], com[i] = R_T.dot(f_w), R_T.dot(n_w), R_T.dot(r)
+    return GroundWrench(force, moment, com)
+
+
+@dataclass(frozen=True)
+class StabilityTrack:
+    """Stability figures at each instant of a motion.
+
+    zmp (n, 2) m, base frame; margin (n,) m: signed distance of the ZMP to the
+    nearest support-polygon edge (> 0 inside); edge (n,) index of that edge
+    (`polygon.edges`); loads: ContactLoads, N (n, k) N per contact in
+    `robot.contacts` order; traction (n, 2): |F_t| / (μ N) per drive wheel
+    (≥ 1 means the wheel slips); wrench: GroundWrench; polygon.
+    """
+
+    zmp: np.ndarray
+    margin: np.ndarray
+    edge: np.ndarray
+    loads: ContactLoads
+    traction: np.ndarray
+    wrench: GroundWrench
+    polygon: object
+
+
+def stability_track(robot, qs, nus, nu_dots, wheel_force_x, *, mu=None):
+    """ZMP, tip-over margin, normal loads and traction use over a motion.
+
+    The lateral force f_y of the ground wrench is carried by the drive wheels
+    alone (casters swivel freely), shared in proportion to their normal loads;
+    the longitudinal force of drive wheel i is `wheel_force_x[:, i]` (from its
+    torque balance, computed by the caller).  Traction use is
+    sqrt(F_x² + F_y²) / (μ N) (friction circle; Coulomb friction).
+
+    Parameters
+    ----------
+    wheel_force_x : (n, 2) N, longitudinal ground force on each drive wheel
+    mu : ground friction coefficient (default: the description's)
+    """
+    mu = robot.ground_friction if mu is None else mu
+    w = ground_wrench(robot, qs, nus, nu_dots)
+    if np.any(w.force[:, 2] <= 0):
+        i = int(np.argmax(w.force[:, 2] <= 0))
+        raise ValueError(f"the ground's normal force is {w.force[i, 2]:.3g} N <= 0 at sample {i}: "
+                         f"the robot would leave the ground")
+    P = np.array([c.position for c in robot.contacts])
+    polygon = support_polygon(P)
+    p = zmp(w.force, w.moment)
+    margin, edge = polygon.margin(p)
+    loads = normal_loads(P, p, w.force[:, 2])
+    N = loads.N[:, :2]
+    share = np.divide(N, N.sum(axis=1, keepdims=True), out=np.full_like(N, 0.5),
+                      where=np.isfinite(N) & (N.sum(axis=1, keepdims=True) > 0))
+    F_y = w.force[:, 1:2] * share
+    F_t = np.hypot(np.asarray(wheel_force_x, dtype=float), F_y)
+    # where the robot tips (ZMP outside the polygon) the loads are nan: no grip
+    use = traction_use(F_t, np.where(np.isfinite(N), N, 0.0), mu)
+    return StabilityTrack(zmp=p, margin=np.asarray(margin), edge=np.asarray(edge), loads=loads,
+                          traction=use, wrench=w, polygon=polygon)
+
+
+def merge_tracks(pieces, n):
+    """One StabilityTrack over n samples from per-group tracks.
+
+    pieces : list of (index array into the n samples, StabilityTrack of those samples)
+    """
+    first = pieces[0][1]
+    k = first.loads.N.shape[1]
+    zmp, margin, edge = np.empty((n, 2)), np.empty(n), np.empty(n, dtype=int)
+    N, lifted, supported = np.empty((n, k)), np.empty((n, k), bool), np.empty(n, bool)
+    traction = np.empty((n, 2))
+    force, moment, com = np.empty((n, 3)), np.empty((n, 3)), np.empty((n, 3))
+    for m, tr_ in pieces:
+        zmp[m], margin[m], edge[m], traction[m] = tr_.zmp, tr_.margin, tr_.edge, tr_.traction
+        N[m], lifted[m], supported[m] = tr_.loads.N, tr_.loads.lifted, tr_.loads.supported
+        force[m], moment[m], com[m] = tr_.wrench.force, tr_.wrench.moment, tr_.wrench.com
+    loads = ContactLoads(N=N, lifted=lifted, supported=supported, model=first.loads.model)
+    return StabilityTrack(zmp=zmp, margin=margin, edge=edge, loads=loads, traction=traction,
+                          wrench=GroundWrench(force, moment, com), polygon=first.polygon)
