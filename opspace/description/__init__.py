@@ -9,11 +9,11 @@
 
 from ._catalogue import Catalogue, Gearbox, Motor, load_catalogue
 from ._duty import DutyCycle, Segment, check_against_robot, load_duty_cycle, resolve_pose
+from ._robot import (ArmJointDrive, BaseSpec, DriveSpec, Mimic, Payload, RobotDescription,
+                     WheelSpec, arm_joint_names, arm_position_limits, independent_joint_names,
+                     load_arm, load_arm_urdf, load_description, read_payload)
 from ._scenario import Scenario, check_scenario, load_scenario
 from ._toml import Entry, Section, check_inertia, inertia_matrix, read_document, read_toml
-from ._robot import (ArmJointDrive, BaseSpec, DriveSpec, Payload, RobotDescription, WheelSpec,
-                    arm_joint_names, arm_position_limits, load_arm_urdf, load_description,
-                    read_payload)
 
 __all__ = [
     "ArmJointDrive",
@@ -33,6 +33,9 @@ __all__ = [
     "arm_joint_names",
     "arm_position_limits",
     "check_against_robot",
+    "independent_joint_names",
+    "load_arm",
+    "Mimic",
     "check_inertia",
     "check_scenario",
     "inertia_matrix",
