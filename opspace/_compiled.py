@@ -50,7 +50,7 @@ def kernel_plant(S, free, coulomb, viscous, friction, A_pinv, casters, c_rr, r):
     r wheel radius, m.  `opspace.dynamics` assembles them from a robot.
     """
     k = _module()
-    if k is None or robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows (NumPy loop)
+    if k is None:
         return None
     return k.Plant(np.asarray(S, float), np.asarray(free, float), np.asarray(coulomb, float),
                    np.asarray(viscous, float), bool(friction), np.asarray(A_pinv, float),

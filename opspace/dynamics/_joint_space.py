@@ -177,6 +177,8 @@ def compiled_plant(robot, locked, friction):
     locked (nv,) bool: coordinates held still; friction: Coulomb, viscous and
     rolling resistance on/off.
     """
+    if robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows (the NumPy loop runs)
+        return None
     terms = _rolling_terms(robot)
     free = (~np.asarray(locked, bool)).astype(float)
     return _compiled.kernel_plant(robot.S, free, robot.coulomb, robot.viscous, friction,
