@@ -10,8 +10,8 @@
 from .._common import GRAVITY
 from ._contacts import ContactLoads, SupportPolygon, normal_loads, support_polygon, zmp
 from ._margins import StoppingLimits, stopping_limits, tip_angle, traction_use
-from ._wrench import (GroundWrench, StabilityTrack, ground_wrench, merge_tracks, stability_track,
-                      tyre_forces)
+from ._wrench import (GroundWrench, StabilityTrack, ground_wrench, merge_tracks,
+                      stability_figures, stability_track, tyre_forces)
 
 __all__ = [
     "GRAVITY",
@@ -23,6 +23,7 @@ __all__ = [
     "ground_wrench",
     "merge_tracks",
     "normal_loads",
+    "stability_figures",
     "stability_track",
     "stopping_limits",
     "support_polygon",
