@@ -105,3 +105,25 @@ def test_no_public_name_shadows_a_module(package):
     sub = {p.stem for p in (ROOT / package).glob("*.py")}
     shadowed = sorted(n for n in pkg.__all__ if n in sub)
     assert shadowed == [], f"opspace.{package}: names that shadow a module: {shadowed}"
+
+
+def test_every_import_inside_the_package_resolves():
+    """Imports inside functions too (they run late, so a renamed module would
+    otherwise fail only when that path runs)."""
+    import importlib
+
+    modules, missing = _modules(), []
+    for name, path in modules.items():
+        if path is None:
+            continue
+        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
+            if not isinstance(node, (ast.Import, ast.ImportFrom)):
+                continue
+            for target, names in _resolve(name, node, modules):
+                try:
+                    module = importlib.import_module(target)
+                except ImportError as exc:
+                    missing.append(f"{name}: {target} ({exc})")
+                    continue
+                missing += [f"{name}: {target}.{n}" for n in names if not hasattr(module, n)]
+    assert missing == [], "\n".join(missing)

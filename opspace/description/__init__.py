@@ -14,6 +14,7 @@ from ._robot import (ArmJointDrive, BaseSpec, DriveSpec, Mimic, Payload, RobotDe
                      load_arm, load_arm_urdf, load_description, read_payload)
 from ._scenario import Scenario, check_scenario, load_scenario
 from ._toml import Entry, Section, check_inertia, inertia_matrix, read_document, read_toml
+from ._visuals import LinkShape, UrdfShapes, read_shapes, resolve_mesh
 
 __all__ = [
     "ArmJointDrive",
@@ -23,22 +24,24 @@ __all__ = [
     "DutyCycle",
     "Entry",
     "Gearbox",
+    "LinkShape",
+    "Mimic",
     "Motor",
     "Payload",
     "RobotDescription",
     "Scenario",
     "Section",
     "Segment",
+    "UrdfShapes",
     "WheelSpec",
     "arm_joint_names",
     "arm_position_limits",
     "check_against_robot",
-    "independent_joint_names",
-    "load_arm",
-    "Mimic",
     "check_inertia",
     "check_scenario",
+    "independent_joint_names",
     "inertia_matrix",
+    "load_arm",
     "load_arm_urdf",
     "load_catalogue",
     "load_description",
@@ -46,6 +49,8 @@ __all__ = [
     "load_scenario",
     "read_document",
     "read_payload",
+    "read_shapes",
     "read_toml",
+    "resolve_mesh",
     "resolve_pose",
 ]

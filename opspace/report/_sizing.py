@@ -11,6 +11,7 @@ from .._common import quantity as _q
 from .._common import trapezoid_rms as _rms
 from ._html import Page, fmt
 from ._text import losses as _losses
+from ._views import sizing_view
 
 __all__ = ["ASSUMPTIONS", "CAUTIONS", "sizing_html", "sizing_summary", "write_sizing_report",
            "write_timeseries_csv"]
@@ -395,6 +396,8 @@ def sizing_html(result, *, progress=None):
                   f"the payload: deceleration {s.deceleration:.2f} m/s², {s.time:.2f} s, "
                   f"{s.distance:.2f} m (limited by {s.limited_by}), on flat ground. Braking "
                   f"harder makes the robot slip or tip.")
+    page.heading("3-D view")
+    page.raw(sizing_view(result))
     page.heading("Drive as described (robot file)")
     d = result.described
     page.table(["figure", "right wheel", "left wheel", "unit"], [
