@@ -8,6 +8,8 @@
 """
 
 from ._catalogue import Catalogue, Gearbox, Motor, load_catalogue
+from ._contact import (OUTLINE_POINTS, BodyRegion, ContactPointSpec, RegionTable,
+                       bundled_regions_path, load_contact_points, load_regions)
 from ._duty import DutyCycle, Segment, check_against_robot, load_duty_cycle, resolve_pose
 from ._robot import (ArmJointDrive, BaseSpec, DriveSpec, Mimic, Payload, RobotDescription,
                      WheelSpec, arm_joint_names, arm_position_limits, independent_joint_names,
@@ -19,7 +21,9 @@ from ._visuals import LinkShape, UrdfShapes, read_shapes, resolve_mesh
 __all__ = [
     "ArmJointDrive",
     "BaseSpec",
+    "BodyRegion",
     "Catalogue",
+    "ContactPointSpec",
     "DriveSpec",
     "DutyCycle",
     "Entry",
@@ -27,7 +31,9 @@ __all__ = [
     "LinkShape",
     "Mimic",
     "Motor",
+    "OUTLINE_POINTS",
     "Payload",
+    "RegionTable",
     "RobotDescription",
     "Scenario",
     "Section",
@@ -36,6 +42,7 @@ __all__ = [
     "WheelSpec",
     "arm_joint_names",
     "arm_position_limits",
+    "bundled_regions_path",
     "check_against_robot",
     "check_inertia",
     "check_scenario",
@@ -44,8 +51,10 @@ __all__ = [
     "load_arm",
     "load_arm_urdf",
     "load_catalogue",
+    "load_contact_points",
     "load_description",
     "load_duty_cycle",
+    "load_regions",
     "load_scenario",
     "read_document",
     "read_payload",

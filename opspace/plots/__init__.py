@@ -8,6 +8,7 @@
 """
 
 from ._animation import animation, frames_from_result
+from ._contact import contact_masses, contact_use, speed_maps
 from ._simulation import base_path, efforts, tracking_error
 from ._sizing import drive_time_series, loads_and_traction, margins_bar, torque_speed_plane
 from ._style import DPI, FIG_WIDTH, figure_to_png_bytes, save
@@ -18,15 +19,18 @@ __all__ = [
     "FIG_WIDTH",
     "animation",
     "base_path",
-    "efforts",
-    "frames_from_result",
-    "tracking_error",
+    "contact_masses",
+    "contact_use",
     "drive_time_series",
+    "efforts",
     "figure_to_png_bytes",
+    "frames_from_result",
     "loads_and_traction",
     "margins_bar",
     "robot_poses",
     "save",
+    "speed_maps",
     "support_polygon_zmp",
     "torque_speed_plane",
+    "tracking_error",
 ]

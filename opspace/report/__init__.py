@@ -3,6 +3,7 @@
 what the physics modules computed; no physics here.
 """
 
+from ._contact import contact_html, contact_section, contact_summary, write_contact_report
 from ._html import Page, fmt
 from ._scene3d import Marker, Scene3D, robot_scene, scene_html
 from ._simulation import simulation_html, simulation_text, write_simulation_outputs
@@ -18,6 +19,9 @@ __all__ = [
     "Page",
     "Scene3D",
     "check_summary",
+    "contact_html",
+    "contact_section",
+    "contact_summary",
     "design_view",
     "fmt",
     "losses",
@@ -28,6 +32,7 @@ __all__ = [
     "simulation_view",
     "sizing_summary",
     "sizing_view",
+    "write_contact_report",
     "write_simulation_outputs",
     "write_sizing_report",
     "write_timeseries_csv",
