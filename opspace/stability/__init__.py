@@ -3,6 +3,9 @@
 - `_contacts`: support polygon, ZMP from a ground wrench, normal loads per
   contact (with lift-off).
 - `_margins`: traction use, tip angle, stopping limits.
+- `_support`: the load model the description chooses (equal or per-contact
+  stiffness, sprung drive wheels, rockers; floor unevenness) and the normal
+  loads under it.
 - `_wrench`: the total ground-reaction wrench of the robot from Pinocchio's
   centroidal momentum rate and gravity, and the per-instant stability figures.
 """
@@ -10,6 +13,8 @@
 from .._common import GRAVITY
 from ._contacts import ContactLoads, SupportPolygon, normal_loads, support_polygon, zmp
 from ._margins import StoppingLimits, stopping_limits, tip_angle, traction_use
+from ._support import (SupportLoads, SupportModel, check_standing, describe_lift_off,
+                       lift_off_spans, support_loads, support_model)
 from ._wrench import (GroundWrench, StabilityTrack, ground_wrench, merge_tracks,
                       stability_figures, stability_track, tyre_forces)
 
@@ -19,13 +24,20 @@ __all__ = [
     "GroundWrench",
     "StabilityTrack",
     "StoppingLimits",
+    "SupportLoads",
+    "SupportModel",
     "SupportPolygon",
+    "check_standing",
+    "describe_lift_off",
     "ground_wrench",
+    "lift_off_spans",
     "merge_tracks",
     "normal_loads",
     "stability_figures",
     "stability_track",
     "stopping_limits",
+    "support_loads",
+    "support_model",
     "support_polygon",
     "tip_angle",
     "traction_use",
