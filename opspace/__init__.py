@@ -17,7 +17,7 @@ from .control import BasePlan, CommandInfo, Gains, OperationalSpaceController, T
 from ._version import __version__
 from .errors import ConfigError, ModelError
 from .model import GRAVITY, MobileManipulator, load_robot
-from . import contact, sizing, stability, trajectory  # noqa: E402  (sub-modules as namespaces)
+from . import contact, identify, sizing, stability, trajectory  # noqa: E402  (sub-modules as namespaces)
 from .simulation import SimulationError, SimulationResult, run_scenario, simulate  # noqa: E402
 from . import sweep  # noqa: E402
 from .sweep import load_sweep, run_sweep  # noqa: E402
@@ -41,6 +41,7 @@ __all__ = [
     "friction",
     "Gains",
     "GRAVITY",
+    "identify",
     "inertia_ellipsoid",
     "InertiaEllipsoid",
     "inverse_dynamics",

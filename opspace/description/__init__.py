@@ -11,6 +11,7 @@ from ._catalogue import Catalogue, Gearbox, Motor, load_catalogue
 from ._contact import (OUTLINE_POINTS, BodyRegion, ContactPointSpec, RegionTable,
                        bundled_regions_path, load_contact_points, load_regions)
 from ._duty import DutyCycle, Segment, check_against_robot, load_duty_cycle, resolve_pose
+from ._motion_log import MotionLog, load_motion_log
 from ._robot import (ArmJointDrive, BaseSpec, DriveSpec, Mimic, Payload, RobotDescription,
                      WheelSpec, arm_joint_names, arm_position_limits, independent_joint_names,
                      load_arm, load_arm_urdf, load_description, read_payload)
@@ -30,6 +31,7 @@ __all__ = [
     "Gearbox",
     "LinkShape",
     "Mimic",
+    "MotionLog",
     "Motor",
     "OUTLINE_POINTS",
     "Payload",
@@ -54,6 +56,7 @@ __all__ = [
     "load_contact_points",
     "load_description",
     "load_duty_cycle",
+    "load_motion_log",
     "load_regions",
     "load_scenario",
     "read_document",

@@ -5,6 +5,7 @@ what the physics modules computed; no physics here.
 
 from ._contact import contact_html, contact_section, contact_summary, write_contact_report
 from ._html import Page, fmt
+from ._identify import identify_summary, toml_text, write_identify_outputs
 from ._scene3d import Marker, Scene3D, robot_scene, scene_html
 from ._simulation import simulation_html, simulation_text, write_simulation_outputs
 from ._sizing import ASSUMPTIONS, CAUTIONS, sizing_summary, write_sizing_report, write_timeseries_csv
@@ -24,6 +25,7 @@ __all__ = [
     "contact_summary",
     "design_view",
     "fmt",
+    "identify_summary",
     "losses",
     "robot_scene",
     "scene_html",
@@ -32,7 +34,9 @@ __all__ = [
     "simulation_view",
     "sizing_summary",
     "sizing_view",
+    "toml_text",
     "write_contact_report",
+    "write_identify_outputs",
     "write_simulation_outputs",
     "write_sizing_report",
     "write_timeseries_csv",
