@@ -15,7 +15,8 @@ at a limit that the step would push beyond it taken out of J (an active set),
 until ‖e‖ < 0.1 mm.  The result is the solution
 the posture leads to (a local minimum of ‖q − q₀‖ on the positions' solution
 set); a position not reached in 200 steps, or where the error stalls (less
-than 0.1 % progress over 15 steps), is left blank ("unreachable").
+than 0.1 % progress over 15 steps), or below the floor (z < 0), is left blank
+("unreachable").
 
 Protective field
 ----------------
@@ -39,7 +40,7 @@ import numpy as np
 import pinocchio as pin
 
 from ..errors import ConfigError
-from ._limits import NAMES, motion_limits_batch
+from ._limits import NAMES, motion_limits, motion_limits_batch
 
 __all__ = ["LimitsMap", "PoseLimits", "limits_map", "pose_limits", "protective_speed",
            "reach_positions"]
@@ -229,6 +230,7 @@ def limits_map(robot, view="side", *, points=21, level=None, extent=None, postur
     v = np.linspace(*extent[1], int(points))
     targets, axes = _grid_targets(view, u, v, float(level))
     arm = reach_positions(robot, targets, q0, progress=progress)
+    arm[targets[:, 2] < 0.0] = np.nan           # in the floor
     values, by, status = _limits_at(robot, arm, options)
     shape = (len(v), len(u))
     return LimitsMap(view=view, axes=axes, u=u, v=v, level=float(level),
@@ -272,11 +274,13 @@ def _limits_at(robot, arm, options):
 
 @dataclass(frozen=True, eq=False)
 class PoseLimits:
-    """Limits at the named poses: names (k,), arm (k, n_arm), values / limited_by
-    per name of `NAMES` (k,), status (k,)."""
+    """Limits at the named poses: names (k,), arm (k, n_arm), tool (k, 3) the tool
+    position in the base frame, m, values / limited_by per name of `NAMES` (k,),
+    status (k,)."""
 
     names: list
     arm: np.ndarray
+    tool: np.ndarray
     values: dict
     limited_by: dict
     status: np.ndarray
@@ -286,9 +290,83 @@ def pose_limits(robot, names=None, **options):
     """Limits at the description's named poses (all of them by default)."""
     names = list(robot.description.poses) if names is None else list(names)
     if not names:
-        return PoseLimits([], np.zeros((0, robot.n_arm)), {k: np.zeros(0) for k in NAMES},
+        return PoseLimits([], np.zeros((0, robot.n_arm)), np.zeros((0, 3)),
+                          {k: np.zeros(0) for k in NAMES},
                           {k: np.zeros(0, dtype=object) for k in NAMES},
                           np.zeros(0, dtype=object))
     arm = np.array([robot.pose(n) for n in names])
     values, by, status = _limits_at(robot, arm, options)
-    return PoseLimits(names, arm, values, by, status)
+    data = robot.model.createData()
+    tool = np.array([_tool_position(robot, data, q) for q in robot.configurations(arm)])
+    return PoseLimits(names, arm, tool, values, by, status)
+
+
+# --------------------------------------------------------------------------- study
+
+CAUTIONS = (
+    "These limits are model estimates with the margins stated on this page (a rigid robot "
+    "on a flat, rigid floor of uniform friction; the described load model; no controller "
+    "overshoot, bumps, slopes across the path or wheel slip dynamics).",
+    "The motion planner's velocity and acceleration limiter must be validated on the robot "
+    "before use, with the payloads and floors it will meet; apply service factors.",
+    "Defer to the applicable safety standards for mobile robots and industrial robots, local "
+    "codes and licensed engineering practice; a protective-field speed here is not a "
+    "validated safety function.",
+)
+
+
+@dataclass(frozen=True, eq=False)
+class LimitsStudy:
+    """Named poses, maps and protective-field speeds of one robot under one set
+    of options (what `opspace limits` writes)."""
+
+    robot: str
+    options: dict
+    poses: PoseLimits
+    maps: list
+    stopping_length: float | None
+    reaction_time: float
+    top_speed: float
+    policy: dict
+    drive: str
+
+    def field_speed(self, deceleration):
+        """Protective-field speed for decelerations (m/s²), or None without a length."""
+        if self.stopping_length is None:
+            return None
+        return protective_speed(deceleration, self.stopping_length, self.reaction_time,
+                                top_speed=self.top_speed)
+
+    @property
+    def status(self):
+        """"ok", or "attention" when a named pose cannot be held at rest."""
+        return "ok" if all(s == "ok" for s in self.poses.status) else "attention"
+
+
+def limits_study(robot, *, views=("side", "top"), points=21, posture=None,
+                 stopping_length=None, reaction_time=0.0, progress=None, map_runner=None,
+                 **options):
+    """Named poses and maps (see `limits_map`, `pose_limits`) in one result.
+
+    map_runner : callable(robot, view, points, posture, options, progress) -> LimitsMap,
+                 to compute maps elsewhere (e.g. on the sweep's executors); default local.
+    """
+    if stopping_length is not None:
+        protective_speed(1.0, stopping_length, reaction_time)      # validates both
+    # validates every option first; a grade the robot cannot stand on at the
+    # posture is bad input (ConfigError), before any long computation
+    probe = motion_limits(robot, robot.configuration(arm=_posture(robot, posture)), **options)
+    poses = pose_limits(robot, **options)
+    maps = []
+    for view in views:
+        report = None if progress is None else (
+            lambda d, t, view=view: progress(f"{view} view", d, t))
+        if map_runner is None:
+            maps.append(limits_map(robot, view, points=points, posture=posture,
+                                   progress=report, **options))
+        else:
+            maps.append(map_runner(robot, view, points, posture, options, report))
+    return LimitsStudy(robot=robot.name, options=dict(options), poses=poses, maps=maps,
+                       stopping_length=stopping_length, reaction_time=float(reaction_time),
+                       top_speed=float(robot.top_speed), policy=probe.policy.to_dict(),
+                       drive=probe.drive)
