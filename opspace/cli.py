@@ -262,7 +262,6 @@ def build_parser():
                         "(same equations, ~5x slower; for cross-checks)")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_simulate)
-    # ------------------------------------------------------------ opspace sweep
     p = sub.add_parser("limits", help="motion limits of the base over the arm's workspace "
                        "(maps, named poses) for a motion planner")
     p.add_argument("robot", nargs="?", help="robot description TOML (default: the bundled demo)")
@@ -295,6 +294,7 @@ def build_parser():
                    "(default: the arm at zero)")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_limits)
+    # ------------------------------------------------------------ opspace sweep
     p = sub.add_parser("sweep", help="size many design points (a sweep file) on local "
                                      "processes or a Dask cluster; CSV and HTML page")
     p.add_argument("sweep", nargs="?", help="sweep TOML (default: the bundled demo sweep)")
