@@ -8,6 +8,7 @@
 """
 
 from ._animation import animation, frames_from_result
+from ._limits import limit_heat_map
 from ._contact import contact_masses, contact_use, speed_maps
 from ._simulation import base_path, efforts, tracking_error
 from ._sizing import drive_time_series, loads_and_traction, margins_bar, torque_speed_plane
@@ -25,6 +26,7 @@ __all__ = [
     "efforts",
     "figure_to_png_bytes",
     "frames_from_result",
+    "limit_heat_map",
     "loads_and_traction",
     "margins_bar",
     "robot_poses",

@@ -5,6 +5,7 @@ what the physics modules computed; no physics here.
 
 from ._contact import contact_html, contact_section, contact_summary, write_contact_report
 from ._html import Page, fmt
+from ._limits import write_limits_report
 from ._identify import identify_summary, toml_text, write_identify_outputs
 from ._scene3d import Marker, Scene3D, robot_scene, scene_html
 from ._simulation import simulation_html, simulation_text, write_simulation_outputs
@@ -37,6 +38,7 @@ __all__ = [
     "toml_text",
     "write_contact_report",
     "write_identify_outputs",
+    "write_limits_report",
     "write_simulation_outputs",
     "write_sizing_report",
     "write_timeseries_csv",
