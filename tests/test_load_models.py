@@ -282,7 +282,7 @@ def test_worst_floor_dip_under_a_drive_wheel_by_hand(tmp_path):
     casters at x = ±l), a dip under a drive wheel leaves each drive wheel
     N_d = W/4 − k e/4, the least of all cases, and each must push m a / 2
     (Newton; no rolling resistance): worst use = (m a / 2) / (μ_low N_d)."""
-    from opspace.description.duty import load_duty_cycle
+    from opspace.description import load_duty_cycle
     from opspace.sizing import size
     from conftest import write_toml
 

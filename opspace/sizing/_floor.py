@@ -26,7 +26,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..stability import ground_wrench, stability_figures
-from ..stability.wrench import _rolling_parts
+from ..stability._wrench import _rolling_parts
 
 __all__ = ["FloorRange", "worst_floor"]
 
