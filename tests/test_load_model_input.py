@@ -124,3 +124,29 @@ def test_drive_wheel_lift_off_gives_a_complete_failing_report(tmp_path, capsys):
     html = (out / "report.html").read_text()
     assert "Lift-off: wheel_right lifts off at t = 0.00 s" in html
     assert "traction" in html and "FAIL" in html
+
+
+def test_sweep_record_names_lift_off_without_non_finite_figures(tmp_path):
+    """The sweep keeps each point's figures finite (a lifted wheel's unbounded
+    traction use becomes null) and says lift-off, with its instant, in the
+    point's message."""
+    import json
+
+    from opspace.description import load_duty_cycle
+    from opspace.report import sizing_summary
+    from opspace.sizing import size
+    from opspace.sweep._worker import _finite, _lift_off
+    from conftest import make_robot
+
+    doc = base_doc(base__com=[0.0, 0.17, 0.2],
+                   caster=[{"position": [x, y]} for x in (0.3, -0.3) for y in (0.1, -0.1)])
+    robot = make_robot(tmp_path, two_link_urdf(), doc)
+    cycle = write_toml(tmp_path / "cycle.toml", {
+        "cycle": {"name": "lift", "robot": "robot.toml", "cycles_per_hour": 10.0,
+                  "sample_rate": 20.0},
+        "segment": [{"kind": "straight", "distance": 0.5, "speed": 0.5, "acceleration": 0.8}]})
+    result = size(load_duty_cycle(cycle, robot=robot), robot=robot, search=False)
+    value = sizing_summary(result)["wheels"]["peak_traction_use"]["right_wheel"]["value"]
+    assert value == float("inf") and _finite(value) is None
+    assert _lift_off(result).startswith("; lift-off: wheel_right lifts off at t = 0.00 s")
+    json.dumps({"figure": _finite(value)}, allow_nan=False)

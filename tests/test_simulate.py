@@ -320,3 +320,22 @@ def test_demo_pick_is_robust_to_a_tiny_perturbation(demo_runs):
         e = res.position_error
         assert rms(e, res.t) < 5e-3 and e.max() < 15e-3
     assert abs(rms(e, res.t) - rms(exact.position_error, exact.t)) < 2e-3
+
+
+def test_demo_run_stability_uses_the_description_load_model(demo_runs):
+    # The simulation's stability figures rest on the same load model as sizing
+    # (the demo's sprung drive wheels): the loads it recorded are those of
+    # `support_loads` at its own ZMP and normal force, and they balance them
+    # (statics: Σ N = f_z, Σ N (x, y) = f_z ZMP).
+    from opspace.stability import support_loads, support_model
+
+    res = demo_runs[0]
+    robot = opspace.load_robot(DEMO)
+    model = support_model(robot)
+    st = res.stability
+    assert "sprung drive wheels" in st.loads.model and st.loads.model == model.describe()
+    ref = support_loads(model, st.zmp, st.wrench.force[:, 2])
+    np.testing.assert_allclose(st.loads.N, ref.N, rtol=1e-12, atol=1e-9)
+    P = np.array([c.position for c in robot.contacts])
+    np.testing.assert_allclose(st.loads.N.sum(axis=1), st.wrench.force[:, 2], rtol=1e-9)
+    np.testing.assert_allclose(st.loads.N @ P, st.wrench.force[:, 2:3] * st.zmp, atol=1e-6)

@@ -9,6 +9,7 @@ thread, so that n workers use n cores.
 
 from __future__ import annotations
 
+import math
 import time
 from dataclasses import dataclass
 
@@ -69,6 +70,30 @@ def _plain(value):
     return value
 
 
+def _finite(value):
+    """A non-finite figure (a lifted drive wheel's unbounded traction use) as None:
+    the message says lift-off, and no file gets a non-finite number."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def _lift_off(result):
+    """"; lift-off: ..." naming a drive wheel's lift-off in the cycle or on the worst
+    floor, else ""."""
+    from ..stability import describe_lift_off, lift_off_spans
+
+    ev = result.evaluation
+    spans = lift_off_spans(ev.t, ev.stability.loads.lifted[:, :2],
+                           [c.name for c in result.robot.contacts[:2]])
+    text = f"; lift-off: {describe_lift_off(spans, limit=2)}" if spans else ""
+    fr = result.floor
+    if fr is not None and fr.lift_off:
+        text += (f"; on the worst floor {fr.traction_wheel} lifts off at t = "
+                 f"{fr.traction_t:.2f} s ({fr.traction_case})")
+    return text
+
+
 def one_line(exc):
     return " ".join(str(exc).split()) or type(exc).__name__
 
@@ -100,11 +125,11 @@ def evaluate_point(context, task, *, worker=True):
         figures = {}
         for f in context.figures:
             try:
-                figures[f.text] = _plain(f.evaluate(summary)[0])
+                figures[f.text] = _finite(_plain(f.evaluate(summary)[0]))
             except PathError:
                 figures[f.text] = None
-        rec.update(status="ok", message=one_line(result.message), verdict=result.status,
-                   figures=figures)
+        rec.update(status="ok", message=one_line(result.message + _lift_off(result)),
+                   verdict=result.status, figures=figures)
     except (ConfigError, ModelError, ValueError) as exc:
         rec.update(status="failed", message=one_line(exc))
     except Exception as exc:  # a bug or a library failure: recorded, the sweep goes on
