@@ -158,7 +158,7 @@ def identify(robot, logs, *, cutoff=DEFAULT_CUTOFF):
         raise ConfigError(f"{len(tm)} equations for {len(base.index)} base parameters: log "
                           f"more samples (or motion of more coordinates)")
     _check_signs(robot, logs, data, blocks, params.prior, measured)
-    fit = estimate(Wm, tm, coord, base, params.prior)
+    fit = estimate(Wm, tm, coord, base, params.prior, params.spread)
     if params.payload is not None and fit.theta[params.payload.start] <= 0.0:
         raise ConfigError(f"the identified payload mass is {fit.theta[params.payload.start]:.3g} "
                           f"kg: are the efforts of the wrong sign, or the payload column wrong?")
