@@ -31,7 +31,7 @@ import numpy as np
 
 import opspace
 from opspace import identify
-from opspace.description.motion_log import load_motion_log
+from opspace.description import load_motion_log
 
 HERE = Path(__file__).resolve().parent
 DEMO = HERE.parent / "models" / "marmot"
@@ -79,7 +79,7 @@ def write_log(path, names, t, pos, tau, held):
 
 
 def size_on(robot):
-    from opspace.description.duty import load_duty_cycle
+    from opspace.description import load_duty_cycle
     duty = load_duty_cycle(DEMO / "shift.toml", robot=robot)
     r = opspace.size(duty, robot=robot, search=False)
     rec = r.recommended
