@@ -12,6 +12,23 @@ from .errors import ConfigError, ModelError
 __all__ = ["main"]
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with a one-line error (exit status 2), like a bad file key."""
+
+    def error(self, message):
+        self.exit(2, f"{self.prog}: error: {message} (see {self.prog} --help)\n")
+
+
+def _input_file(path, what):
+    """A file named on the command line: it exists and is a regular file."""
+    from .description import check_file
+
+    if path is None:
+        return None
+    check_file(path, where=f"opspace: {what} argument", what="file")
+    return Path(path)
+
+
 def demo_robot_path():
     """The bundled demo robot description (installed copy, else the repo's)."""
     here = Path(__file__).resolve().parent
@@ -26,7 +43,7 @@ def _cmd_check(args):
     from .model import load_robot
     from .report import check_summary
 
-    robot = load_robot(args.robot or demo_robot_path())
+    robot = load_robot(_input_file(args.robot, "ROBOT") or demo_robot_path())
     print(check_summary(robot))
     return 0
 
@@ -69,17 +86,17 @@ def _cmd_size(args):
     from .report import write_sizing_report
     from .sizing import size
 
-    path = Path(args.cycle) if args.cycle else demo_cycle_path()
+    from .description import check_output_dir
+
+    path = _input_file(args.cycle, "CYCLE") or demo_cycle_path()
+    out = check_output_dir(args.output)
     duty = load_duty_cycle(path)
     robot = load_robot(duty.robot_path)
     duty = load_duty_cycle(path, robot=robot)          # cross-checks before computing
     catalogue = args.catalogue
     if catalogue is not None:
         from .description.catalogue import load_catalogue
-        catalogue = load_catalogue(catalogue)
-    out = Path(args.output)
-    if out.exists() and not out.is_dir():
-        raise ConfigError(f"-o {out}: exists and is not a directory")
+        catalogue = load_catalogue(_input_file(catalogue, "--catalogue"))
     progress = _Progress(not args.quiet and sys.stderr.isatty())
     try:
         result = size(duty, robot=robot, catalogue=catalogue, search=not args.no_search,
@@ -108,13 +125,14 @@ def _cmd_simulate(args):
     from .report.simulation import simulation_text, write_simulation_outputs
     from .simulate import ScenarioRun, SimulationError
 
-    path = Path(args.scenario) if args.scenario else demo_robot_path().with_name("pick.toml")
+    from .description import check_output_dir, option_number
+
+    path = _input_file(args.scenario, "SCENARIO") or demo_robot_path().with_name("pick.toml")
+    out = check_output_dir(args.output)
+    option_number("--payload-error", args.payload_error, lo=-0.9, hi=10.0)
     scenario = load_scenario(path)
     run = ScenarioRun(scenario, payload_mass_error=args.payload_error,   # validates it all
                       compiled=False if args.reference_loop else None)
-    out = Path(args.output)
-    if out.exists() and not out.is_dir():
-        raise ConfigError(f"-o {out}: exists and is not a directory")
     progress = _Progress(not args.quiet and sys.stderr.isatty())
     try:
         try:
@@ -141,7 +159,11 @@ def _cmd_simulate(args):
 def _cmd_sweep(args):
     from .sweep import load_sweep, progress_bar, run_sweep
 
-    path = Path(args.sweep) if args.sweep else demo_robot_path().with_name("sweep.toml")
+    from .sweep import check_options
+
+    path = _input_file(args.sweep, "SWEEP") or demo_robot_path().with_name("sweep.toml")
+    check_options(args.output, workers=args.workers, cluster=args.cluster,
+                  local_cluster=args.local_cluster, resume=args.resume)
     sweep = load_sweep(path)
     bar = progress_bar(enabled=not args.quiet and sys.stderr.isatty())
     try:
@@ -168,7 +190,7 @@ def _cmd_sweep(args):
 
 
 def build_parser():
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="opspace",
         description="Dynamics of mobile manipulators: model checks, drive sizing, simulation.")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
@@ -225,8 +247,8 @@ def main(argv=None):
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
-    except SystemExit as exc:  # argparse already printed its one-line usage error
-        return int(exc.code or 0)
+    except SystemExit as exc:  # argparse printed its one-line error (or the help)
+        return exc.code if isinstance(exc.code, int) else 2
     if args.command is None:
         parser.print_help()
         return 2

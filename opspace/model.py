@@ -288,7 +288,11 @@ class MobileManipulator:
         if not self.model.existFrame(name):
             names = ", ".join(f.name for f in self.model.frames if f.type == pin.FrameType.BODY)
             raise ConfigError(f"unknown frame '{name}' (body frames: {names})")
-        return self.model.getFrameId(name)
+        # a link and a joint may share a name (legal URDF): the link's frame wins
+        ids = [i for i, f in enumerate(self.model.frames) if f.name == name]
+        order = (pin.FrameType.BODY, pin.FrameType.OP_FRAME, pin.FrameType.FIXED_JOINT,
+                 pin.FrameType.JOINT, pin.FrameType.SENSOR)
+        return min(ids, key=lambda i: order.index(self.model.frames[i].type))
 
     def frame_placement(self, q, frame):
         """World placement of a frame, pinocchio.SE3 (X_W_frame)."""

@@ -34,7 +34,8 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Section, check_inertia, read_document
+from ._toml import Section, check_inertia, read_document, read_text, referenced_path
+from ._urdf import check_urdf
 
 __all__ = [
     "ArmJointDrive",
@@ -47,6 +48,14 @@ __all__ = [
     "WheelSpec",
     "load_description",
 ]
+
+#: largest plausible robot dimension, m (centre-of-mass offsets, mount,
+#: footprint, casters, track, wheel radius): a larger one is a unit mistake
+#: (a file written in millimetres) or a typo (common practice, no source).
+ROBOT_SIZE = 10.0
+#: largest plausible gear ratio (motor speed / output speed); multi-stage
+#: industrial gearboxes stay below it (common practice, no source).
+MAX_GEAR_RATIO = 1e4
 
 #: ground friction coefficient used when [ground] friction is absent
 #: (rubber tyre on a dry, sealed indoor floor; common practice, no source).
@@ -180,19 +189,19 @@ def load_description(path, *, doc=None, urdf_text=None):
     urdf_rel = s.string("arm_urdf")
     tool_frame = s.string("tool_frame")
     s.finish()
-    arm_urdf = (path.parent / urdf_rel).resolve()
+    arm_urdf = referenced_path(path, urdf_rel)
 
     base = _read_base(Section(path, "base", doc["base"]))
     wheel = _read_wheel(Section(path, "wheel", doc["wheel"]))
     drive = _read_drive(Section(path, "drive", doc["drive"]))
 
     s = Section(path, "mount", doc["mount"])
-    mount_xyz = s.vector("xyz", 3, unit="m")
+    mount_xyz = s.vector("xyz", 3, unit="m", cap=ROBOT_SIZE)
     mount_rpy = s.vector("rpy", 3, (0.0, 0.0, 0.0), unit="rad")
     s.finish()
 
     s = Section(path, "ground", doc.get("ground", {}))
-    friction = s.number("friction", DEFAULT_GROUND_FRICTION, lo=0.0, lo_open=True)
+    friction = s.number("friction", DEFAULT_GROUND_FRICTION, lo=0.0, lo_open=True, hi=5.0)
     s.finish()
 
     payload = None
@@ -203,6 +212,7 @@ def load_description(path, *, doc=None, urdf_text=None):
     arm_model = load_arm_urdf(arm_urdf, where=f"{name}: [robot] arm_urdf", text=urdf_text)
     _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
     arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
+    _check_moving_mass(arm_model, arm_joints, arm_urdf.name, name)
     poses = _read_poses(path, doc.get("poses", {}), arm_model)
 
     return RobotDescription(
@@ -215,13 +225,13 @@ def load_description(path, *, doc=None, urdf_text=None):
 def _read_base(s):
     base = BaseSpec(
         mass=s.number("mass", unit="kg", lo=0.0, lo_open=True),
-        com=s.vector("com", 3, unit="m"),
+        com=s.vector("com", 3, unit="m", cap=ROBOT_SIZE),
         inertia=s.vector("inertia", 6, unit="kg·m²"),
-        half_track=s.number("half_track", unit="m", lo=0.0, lo_open=True),
-        wheel_radius=s.number("wheel_radius", unit="m", lo=0.0, lo_open=True),
+        half_track=s.number("half_track", unit="m", lo=0.0, lo_open=True, hi=ROBOT_SIZE / 2),
+        wheel_radius=s.number("wheel_radius", unit="m", lo=0.0, lo_open=True, hi=ROBOT_SIZE / 5),
         rolling_resistance=s.number("rolling_resistance", 0.0, lo=0.0, hi=1.0),
         top_speed=s.number("top_speed", math.inf, unit="m/s", lo=0.0, lo_open=True),
-        footprint=s.vector("footprint", 5, unit="m", required=False),
+        footprint=s.vector("footprint", 5, unit="m", required=False, cap=ROBOT_SIZE),
     )
     fp = base.footprint
     if fp is not None and not (fp[0] < fp[1] and fp[2] < fp[3] and fp[4] > 0):
@@ -250,7 +260,7 @@ def _read_wheel(s):
 def _read_drive(s):
     drive = DriveSpec(
         rotor_inertia=s.number("rotor_inertia", unit="kg·m²", lo=0.0),
-        gear_ratio=s.number("gear_ratio", lo=0.0, lo_open=True),
+        gear_ratio=s.number("gear_ratio", lo=0.0, lo_open=True, hi=MAX_GEAR_RATIO),
         efficiency=s.number("efficiency", lo=0.0, lo_open=True, hi=1.0),
         coulomb=s.number("coulomb", 0.0, unit="N·m", lo=0.0),
         viscous=s.number("viscous", 0.0, unit="N·m·s/rad", lo=0.0),
@@ -264,7 +274,7 @@ def read_payload(s):
     """A [payload]-shaped table (also used by scenario files)."""
     payload = Payload(
         mass=s.number("mass", unit="kg", lo=0.0, lo_open=True),
-        com=s.vector("com", 3, (0.0, 0.0, 0.0), unit="m"),
+        com=s.vector("com", 3, (0.0, 0.0, 0.0), unit="m", cap=ROBOT_SIZE),
         inertia=s.vector("inertia", 6, (0.0,) * 6, unit="kg·m²"),
     )
     check_inertia(payload.inertia, s.where("inertia"), allow_zero=True)
@@ -278,7 +288,7 @@ def _read_casters(path, entries, base):
     casters = []
     for i, entry in enumerate(entries):
         s = Section(path, f"caster {i + 1}", entry)
-        x, y = s.vector("position", 2, unit="m")
+        x, y = s.vector("position", 2, unit="m", cap=ROBOT_SIZE)
         s.finish()
         if abs(x) < 1e-9 and abs(abs(y) - base.half_track) < 1e-9:
             s.fail("position", f"coincides with a drive wheel contact, got {[x, y]}")
@@ -294,9 +304,8 @@ def load_arm_urdf(urdf_path, *, where, text=None):
 
     urdf_path = Path(urdf_path)
     if text is None:
-        if not urdf_path.is_file():
-            raise ConfigError(f"{where}: URDF file not found: {urdf_path}")
-        text = urdf_path.read_text(encoding="utf-8")
+        text = read_text(urdf_path, where=where, what="URDF file")
+    check_urdf(text, urdf_path.name)       # one line per problem, before urdfdom sees it
     try:
         arm = pin.buildModelFromXML(text)
     except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
@@ -335,6 +344,32 @@ def _check_urdf_inertias(urdf_path, text):
         keys = ("ixx", "iyy", "izz", "ixy", "ixz", "iyz")
         vals = [float(inertia_el.get(k, "0")) for k in keys]
         check_inertia(vals, f"{where} <inertia>")
+
+
+def _check_moving_mass(arm, arm_joints, urdf_name, name):
+    """Every arm joint moves some inertia: M_ii > 0 in the joint-space mass
+    matrix of the arm alone (composite-rigid-body algorithm, Featherstone,
+    Rigid Body Dynamics Algorithms, 2008, sec. 6.2: M_ii = S_iᵀ I^c_i S_i with
+    I^c_i the inertia of the links beyond joint i) plus its armature.  A joint
+    whose links beyond carry no mass (or none off its axis) makes the mass
+    matrix singular: caught here, naming the joint."""
+    import pinocchio as pin
+
+    data = arm.createData()
+    M = pin.crba(arm, data, pin.neutral(arm))
+    diag = np.diag(M).copy()
+    for jid in range(1, arm.njoints):
+        jd = arm_joints.get(arm.names[jid])
+        if jd is not None:
+            diag[arm.joints[jid].idx_v] += jd.reflected_inertia
+    floor = 1e-12 * max(1.0, float(np.max(diag)))
+    for jid in range(1, arm.njoints):
+        if diag[arm.joints[jid].idx_v] <= floor:
+            jname = arm.names[jid]
+            raise ConfigError(f"{urdf_name}: joint '{jname}' moves no mass (the links beyond it "
+                              f"have no mass or inertia about its axis): the mass matrix would "
+                              f"be singular; give its child link an <inertial>, or the joint a "
+                              f"rotor in {name} [arm_joint.{jname}] rotor_inertia")
 
 
 def _check_tool_frame(arm, tool_frame, name, urdf):
@@ -377,7 +412,7 @@ def _read_arm_joints(path, table, arm):
             coulomb=s.number("coulomb", unit="N·m or N", lo=0.0, required=False),
             viscous=s.number("viscous", unit="N·m·s/rad or N·s/m", lo=0.0, required=False),
             rotor_inertia=s.number("rotor_inertia", 0.0, unit="kg·m²", lo=0.0),
-            gear_ratio=s.number("gear_ratio", 1.0, lo=0.0, lo_open=True),
+            gear_ratio=s.number("gear_ratio", 1.0, lo=0.0, lo_open=True, hi=MAX_GEAR_RATIO),
         )
         s.finish()
     return drives

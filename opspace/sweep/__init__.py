@@ -42,7 +42,7 @@ The sweep file (TOML; SI units, paths relative to the file)::
     min = 0.05
 """
 
-from .engine import PointRecord, SweepResult, evaluate_point, progress_bar, run_sweep
+from .engine import PointRecord, SweepResult, check_options, evaluate_point, progress_bar, run_sweep
 from .pareto import pareto_front
 from .paths import Figure, parse_figure, parse_path
 from .spec import Constraint, Parameter, Point, Sweep, latin_hypercube, load_sweep
@@ -55,6 +55,7 @@ __all__ = [
     "PointRecord",
     "Sweep",
     "SweepResult",
+    "check_options",
     "evaluate_point",
     "latin_hypercube",
     "load_sweep",
