@@ -22,7 +22,7 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover
     import tomli as tomllib
 
-__all__ = ["Entry", "PLAUSIBLE", "Section", "check_file", "check_inertia", "check_output_dir",
+__all__ = ["Entry", "MAX_GEAR_RATIO", "PLAUSIBLE", "ROBOT_SIZE", "Section", "check_file", "check_inertia", "check_output_dir",
            "inertia_matrix", "option_number",
            "plausible_bound", "read_document", "read_text", "read_toml", "referenced_path"]
 
@@ -300,6 +300,16 @@ PLAUSIBLE = {
     "N·m·s/rad": 1e6, "N·m·s/rad or N·s/m": 1e6, "N·m/A": 1e3, "Ω": 1e4,
     "Hz": 1e6, "1/h": 1e4, "1/s": 1e5, "1/s²": 1e8, "rad or m": 1e3,
 }
+
+
+#: largest plausible robot dimension, m (centre-of-mass offsets, mount,
+#: footprint, casters, track, wheel radius, URDF joint offsets): a larger one
+#: is a unit mistake (a file written in millimetres) or a typo (common
+#: practice, no source).
+ROBOT_SIZE = 10.0
+#: largest plausible gear ratio (motor speed / output speed); multi-stage
+#: industrial gearboxes stay below it (common practice, no source).
+MAX_GEAR_RATIO = 1e4
 
 
 def plausible_bound(unit):

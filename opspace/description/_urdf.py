@@ -32,16 +32,17 @@ import math
 import xml.etree.ElementTree as ET
 
 from ..errors import ConfigError
+from ._toml import ROBOT_SIZE
 
-__all__ = ["MAX_LINK_INERTIA", "MAX_LINK_MASS", "RESERVED", "ROBOT_SIZE", "check_urdf"]
+__all__ = ["MAX_LINK_INERTIA", "MAX_LINK_MASS", "RESERVED", "check_urdf"]
 
-#: largest plausible offset between two arm frames, m
-ROBOT_SIZE = 10.0
 #: largest plausible mass of one arm link, kg
 MAX_LINK_MASS = 1000.0
 #: largest plausible inertia element of one arm link, kg·m²
 MAX_LINK_INERTIA = 1000.0
 MAX_EFFORT = 1e6
+#: largest plausible revolute joint limit, rad (about 160 turns)
+MAX_ANGLE = 1e3
 MAX_VELOCITY = 1e4
 #: joint and link names of the base model the arm is appended to
 RESERVED = ("base_planar", "base", "wheel_right", "wheel_left", "universe")
@@ -194,9 +195,12 @@ def _check_motion(where, joint, kind):
     if not lo < hi:
         raise ConfigError(f"{where} <limit> must have lower < upper, got lower = {lo:g}, "
                           f"upper = {hi:g} (both default to 0)")
+    attr = "lower" if abs(lo) > abs(hi) else "upper"
     if kind == "prismatic":
-        _bound(where, limit, "lower" if abs(lo) > abs(hi) else "upper", [lo, hi], ROBOT_SIZE,
-               _LENGTH_HINT)
+        _bound(where, limit, attr, [lo, hi], ROBOT_SIZE, _LENGTH_HINT)
+    else:
+        _bound(where, limit, attr, [lo, hi], MAX_ANGLE,
+               "rad: a joint without limits is of type continuous")
 
 
 def _check_tree(name, links, joints):

@@ -34,7 +34,8 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Section, check_inertia, read_document, read_text, referenced_path
+from ._toml import (MAX_GEAR_RATIO, ROBOT_SIZE, Section, check_inertia, read_document,
+                    read_text, referenced_path)
 from ._urdf import check_urdf
 
 __all__ = [
@@ -48,14 +49,6 @@ __all__ = [
     "WheelSpec",
     "load_description",
 ]
-
-#: largest plausible robot dimension, m (centre-of-mass offsets, mount,
-#: footprint, casters, track, wheel radius): a larger one is a unit mistake
-#: (a file written in millimetres) or a typo (common practice, no source).
-ROBOT_SIZE = 10.0
-#: largest plausible gear ratio (motor speed / output speed); multi-stage
-#: industrial gearboxes stay below it (common practice, no source).
-MAX_GEAR_RATIO = 1e4
 
 #: ground friction coefficient used when [ground] friction is absent
 #: (rubber tyre on a dry, sealed indoor floor; common practice, no source).

@@ -77,8 +77,11 @@ def range_values(where, raw):
                               f"{stop:g}): its sign must be that of stop - start")
         span = (stop - start) / step
         if not span < MAX_POINTS:          # before building anything (also catches overflow)
-            raise ConfigError(f"{where} has {span:.3g} values (more than {MAX_POINTS}): "
-                              f"check step = {step:g}")
+            raise ConfigError(f"{where} {{start, stop, step}} makes {span:.3g} values (more "
+                              f"than {MAX_POINTS}): check step = {step:g}")
+        if span < 1.0 - 1e-9:
+            raise ConfigError(f"{where} step = {step:g} is longer than the range from start "
+                              f"{start:g} to stop {stop:g}: it makes one value")
         count = int(math.floor(span + 1e-9)) + 1
         if count > MAX_POINTS:
             raise ConfigError(f"{where} has {count} values (more than {MAX_POINTS}): "

@@ -334,6 +334,10 @@ def _describe(value):
     return f"{type(value).__name__} {value!r}"
 
 
+#: documents loaded by the trials, keyed on their content (read only)
+_TRIALS = _docs.Cache(size=16)
+
+
 def _trial(documents, assignments, where):
     """Load the documents with `assignments` (and cross-check the duty cycle
     against the robot when either changes); the loader's message, or None
@@ -347,10 +351,10 @@ def _trial(documents, assignments, where):
     try:
         for root in _docs.ROOTS:
             if root in roots and docs[root] is not None:
-                loaded[root] = _docs._LOADERS[root](documents, docs[root])
+                loaded[root] = _TRIALS.get(documents, root, docs[root])
         if roots & {"robot", "cycle"}:
-            robot = loaded.get("robot") or _docs.load_robot_doc(documents, docs["robot"])
-            duty = loaded.get("cycle") or _docs.load_cycle_doc(documents, docs["cycle"])
+            robot = loaded.get("robot") or _TRIALS.get(documents, "robot", docs["robot"])
+            duty = loaded.get("cycle") or _TRIALS.get(documents, "cycle", docs["cycle"])
             check_against_robot(duty, robot)
     except ConfigError as exc:
         text = str(exc)
@@ -428,7 +432,7 @@ def _read_parameter(path, i, entry, documents, fixed):
     try:
         root, steps, base, exists = locate(documents, key)
     except ValueError as exc:
-        raise ConfigError(f"{s.where('')}: {exc}") from None
+        raise ConfigError(f"{s.where('key')}: {exc}") from None
     action, vtype = _kind_of(base, exists)
     where = s.where(sampling)
     if action is None:
