@@ -14,8 +14,8 @@ from .duty import DutyCycle, Segment, load_duty_cycle
 from ._toml import (PLAUSIBLE, Entry, Section, check_file, check_inertia, check_output_dir,
                     inertia_matrix, option_number, plausible_bound, read_document, read_text, read_toml, referenced_path)
 from .robot import (ArmJointDrive, BaseSpec, DriveSpec, Payload, RobotDescription, WheelSpec,
-                    arm_joint_names, arm_position_limits, load_arm_urdf, load_description,
-                    read_payload)
+                    Mimic, arm_joint_names, arm_position_limits, independent_joint_names,
+                    load_arm, load_arm_urdf, load_description, read_payload)
 
 __all__ = [
     "PLAUSIBLE",
@@ -41,6 +41,9 @@ __all__ = [
     "WheelSpec",
     "arm_joint_names",
     "arm_position_limits",
+    "independent_joint_names",
+    "load_arm",
+    "Mimic",
     "check_inertia",
     "inertia_matrix",
     "load_arm_urdf",

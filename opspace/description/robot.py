@@ -36,12 +36,15 @@ import numpy as np
 from ..errors import ConfigError
 from ._toml import (MAX_GEAR_RATIO, ROBOT_SIZE, Section, check_inertia, read_document,
                     read_text, referenced_path)
-from ._urdf import check_urdf
+from ._urdf import Mimic, check_inertials, check_urdf, read_mimic
 
 __all__ = [
     "ArmJointDrive",
     "arm_joint_names",
     "arm_position_limits",
+    "independent_joint_names",
+    "load_arm",
+    "Mimic",
     "BaseSpec",
     "DriveSpec",
     "Payload",
@@ -147,6 +150,7 @@ class RobotDescription:
     arm_joints: dict = field(default_factory=dict)
     poses: dict = field(default_factory=dict)
     arm_model: object = None  # pinocchio.Model of the arm alone (fixed base)
+    mimic: dict = field(default_factory=dict)  # follower joint -> Mimic of an independent one
 
 
 # ---------------------------------------------------------------------------
@@ -202,17 +206,17 @@ def load_description(path, *, doc=None, urdf_text=None):
         payload = read_payload(Section(path, "payload", doc["payload"]))
 
     casters = _read_casters(path, doc.get("caster", []), base)
-    arm_model = load_arm_urdf(arm_urdf, where=f"{name}: [robot] arm_urdf", text=urdf_text)
+    arm_model, mimic = load_arm(arm_urdf, where=f"{name}: [robot] arm_urdf", text=urdf_text)
     _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
     arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
-    _check_moving_mass(arm_model, arm_joints, arm_urdf.name, name)
-    poses = _read_poses(path, doc.get("poses", {}), arm_model)
+    _check_moving_mass(arm_model, mimic, arm_joints, arm_urdf.name, name)
+    poses = _read_poses(path, doc.get("poses", {}), arm_model, mimic)
 
     return RobotDescription(
         path=path, name=robot_name, arm_urdf=arm_urdf, tool_frame=tool_frame,
         base=base, wheel=wheel, drive=drive, mount_xyz=mount_xyz,
         mount_rpy=mount_rpy, casters=casters, ground_friction=friction,
-        payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model)
+        payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic)
 
 
 def _read_base(s):
@@ -293,12 +297,19 @@ def load_arm_urdf(urdf_path, *, where, text=None):
     """Parse the arm URDF with Pinocchio (fixed base) and check its inertias;
     `text`: the URDF's content (the file at urdf_path, which names it, is then
     not read)."""
+    return load_arm(urdf_path, where=where, text=text)[0]
+
+
+def load_arm(urdf_path, *, where, text=None):
+    """(pinocchio.Model of the arm, {follower: Mimic}) from the arm URDF: see
+    `load_arm_urdf`; the mimic joints are parsed as ordinary joints by Pinocchio
+    and tied to their leaders by the model's reduction map."""
     import pinocchio as pin
 
     urdf_path = Path(urdf_path)
     if text is None:
         text = read_text(urdf_path, where=where, what="URDF file")
-    check_urdf(text, urdf_path.name)       # one line per problem, before urdfdom sees it
+    root = check_urdf(text, urdf_path.name)   # one line per problem, before urdfdom sees it
     try:
         arm = pin.buildModelFromXML(text)
     except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
@@ -312,53 +323,38 @@ def load_arm_urdf(urdf_path, *, where, text=None):
             raise ConfigError(
                 f"{urdf_path.name}: joint '{arm.names[jid]}' has {joint.nv} degrees "
                 f"of freedom; only revolute, continuous and prismatic joints are supported")
-    _check_urdf_inertias(urdf_path, text)
-    return arm
+    check_inertials(root, urdf_path.name)
+    mimic = read_mimic(root, urdf_path.name, arm_joint_names(arm))
+    arm_position_limits(arm, mimic, file=urdf_path.name)   # a leader with no common range
+    return arm, mimic
 
 
-def _check_urdf_inertias(urdf_path, text):
-    """Mass > 0 and a physical inertia for every <inertial> of the URDF."""
-    import xml.etree.ElementTree as ET
-
-    root = ET.fromstring(text)
-    for link in root.iter("link"):
-        inertial = link.find("inertial")
-        if inertial is None:
-            continue
-        lname = link.get("name")
-        where = f"{urdf_path.name}: link '{lname}' <inertial>"
-        mass_el = inertial.find("mass")
-        mass = float(mass_el.get("value", "nan")) if mass_el is not None else math.nan
-        if not mass > 0.0:
-            raise ConfigError(f"{where} <mass value> must be > 0 kg, got {mass}")
-        inertia_el = inertial.find("inertia")
-        if inertia_el is None:
-            raise ConfigError(f"{where} has no <inertia>")
-        keys = ("ixx", "iyy", "izz", "ixy", "ixz", "iyz")
-        vals = [float(inertia_el.get(k, "0")) for k in keys]
-        check_inertia(vals, f"{where} <inertia>")
-
-
-def _check_moving_mass(arm, arm_joints, urdf_name, name):
-    """Every arm joint moves some inertia: M_ii > 0 in the joint-space mass
-    matrix of the arm alone (composite-rigid-body algorithm, Featherstone,
-    Rigid Body Dynamics Algorithms, 2008, sec. 6.2: M_ii = S_iᵀ I^c_i S_i with
-    I^c_i the inertia of the links beyond joint i) plus its armature.  A joint
+def _check_moving_mass(arm, mimic, arm_joints, urdf_name, name):
+    """Every independent arm joint moves some inertia: (Sᵀ M S)_ii > 0, with
+    M the joint-space mass matrix of the arm alone (composite-rigid-body
+    algorithm, Featherstone, Rigid Body Dynamics Algorithms, 2008, sec. 6.2:
+    M_jj = S_jᵀ I^c_j S_j with I^c_j the inertia of the links beyond joint j),
+    S the mimic map (q_f = k q_l + o), plus the joint's armature.  A joint
     whose links beyond carry no mass (or none off its axis) makes the mass
     matrix singular: caught here, naming the joint."""
     import pinocchio as pin
 
-    data = arm.createData()
-    M = pin.crba(arm, data, pin.neutral(arm))
-    diag = np.diag(M).copy()
-    for jid in range(1, arm.njoints):
-        jd = arm_joints.get(arm.names[jid])
+    names = arm_joint_names(arm)
+    free = independent_joint_names(arm, mimic)
+    S = np.zeros((arm.nv, len(free)))
+    for jid, jname in enumerate(names, start=1):
+        m = mimic.get(jname)
+        lead, k = (jname, 1.0) if m is None else (m.leader, m.multiplier)
+        S[arm.joints[jid].idx_v, free.index(lead)] = k
+    M = pin.crba(arm, arm.createData(), pin.neutral(arm))
+    diag = np.einsum("ji,jk,ki->i", S, M, S)
+    for i, jname in enumerate(free):
+        jd = arm_joints.get(jname)
         if jd is not None:
-            diag[arm.joints[jid].idx_v] += jd.reflected_inertia
+            diag[i] += jd.reflected_inertia
     floor = 1e-12 * max(1.0, float(np.max(diag)))
-    for jid in range(1, arm.njoints):
-        if diag[arm.joints[jid].idx_v] <= floor:
-            jname = arm.names[jid]
+    for i, jname in enumerate(free):
+        if diag[i] <= floor:
             raise ConfigError(f"{urdf_name}: joint '{jname}' moves no mass (the links beyond it "
                               f"have no mass or inertia about its axis): the mass matrix would "
                               f"be singular; give its child link an <inertial>, or the joint a "
@@ -373,22 +369,40 @@ def _check_tool_frame(arm, tool_frame, name, urdf):
 
 
 def arm_joint_names(arm):
+    """Names of the arm's moving joints in chain order (followers included)."""
     return [arm.names[j] for j in range(1, arm.njoints)]
 
 
-def arm_position_limits(arm):
-    """Lower and upper position limits per arm joint, shape (nv,) each.
+def independent_joint_names(arm, mimic=None):
+    """The arm's independent joints in chain order: the mimic followers left out."""
+    return [n for n in arm_joint_names(arm) if n not in (mimic or {})]
 
-    Continuous joints (nq = 2 in Pinocchio) have no limit: ±inf.
+
+def arm_position_limits(arm, mimic=None, *, file="arm URDF"):
+    """Lower and upper position limits per independent arm joint, shape (n,) each.
+
+    Continuous joints (nq = 2 in Pinocchio) have no limit: ±inf.  A follower
+    q_f = k q_l + o with limits [lo_f, hi_f] narrows its leader's range to
+    [(lo_f − o)/k, (hi_f − o)/k] (the ends swapped when k < 0).
     """
-    lo = np.full(arm.nv, -np.inf)
-    hi = np.full(arm.nv, np.inf)
-    for jid in range(1, arm.njoints):
+    names = arm_joint_names(arm)
+    lo, hi = {}, {}
+    for jid, name in enumerate(names, start=1):
         joint = arm.joints[jid]
-        if joint.nq == 1:
-            lo[joint.idx_v] = arm.lowerPositionLimit[joint.idx_q]
-            hi[joint.idx_v] = arm.upperPositionLimit[joint.idx_q]
-    return lo, hi
+        lo[name], hi[name] = ((arm.lowerPositionLimit[joint.idx_q],
+                               arm.upperPositionLimit[joint.idx_q])
+                              if joint.nq == 1 else (-np.inf, np.inf))
+    for name, m in (mimic or {}).items():
+        if m.multiplier == 0.0:
+            continue
+        ends = sorted(((lo[name] - m.offset) / m.multiplier, (hi[name] - m.offset) / m.multiplier))
+        lo[m.leader], hi[m.leader] = max(lo[m.leader], ends[0]), min(hi[m.leader], ends[1])
+        if lo[m.leader] > hi[m.leader]:
+            raise ConfigError(f"{file}: joint '{name}' mimics '{m.leader}' (q = {m.multiplier:g} q + "
+                              f"{m.offset:g}) but no position of '{m.leader}' keeps both "
+                              f"within their URDF limits")
+    free = independent_joint_names(arm, mimic)
+    return np.array([lo[n] for n in free], float), np.array([hi[n] for n in free], float)
 
 
 def _read_arm_joints(path, table, arm):
@@ -411,19 +425,22 @@ def _read_arm_joints(path, table, arm):
     return drives
 
 
-def _read_poses(path, table, arm):
+def _read_poses(path, table, arm, mimic):
     if not isinstance(table, dict):
         raise ConfigError(f"{path.name}: [poses] must be a table, got {table!r}")
-    n = arm.nv
+    names = independent_joint_names(arm, mimic)
     s = Section(path, "poses", table)
-    lo, hi = arm_position_limits(arm)
+    lo, hi = arm_position_limits(arm, mimic)
     poses = {}
-    for pose_name in table:
-        values = np.array(s.vector(pose_name, n, unit="rad or m"))
+    for pose_name, raw in table.items():
+        if not isinstance(raw, list) or len(raw) != len(names):
+            s.fail(pose_name, f"must list {len(names)} joint values, one per independent arm "
+                              f"joint ({', '.join(names)}; rad or m), got {raw!r}")
+        values = np.array(s.vector(pose_name, len(names), unit="rad or m"))
         bad = np.flatnonzero((values < lo - 1e-9) | (values > hi + 1e-9))
         if bad.size:
             j = int(bad[0])
-            s.fail(pose_name, f"puts joint '{arm.names[j + 1]}' at {values[j]:g}, outside "
+            s.fail(pose_name, f"puts joint '{names[j]}' at {values[j]:g}, outside "
                               f"its URDF limits [{lo[j]:g}, {hi[j]:g}]")
         poses[pose_name] = values
     s.finish()
