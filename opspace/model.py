@@ -64,6 +64,24 @@ def _inertia(mass, com, values):
     return pin.Inertia(float(mass), np.asarray(com, dtype=float), inertia_matrix(values))
 
 
+def _link_frames_apart(arm):
+    """(arm, {temporary name: name}): a copy of the arm model whose link frames
+    that share their name with a joint (legal URDF) carry a temporary name,
+    which `pinocchio.appendModel` (it looks frames up by name alone) needs."""
+    names = [f.name for f in arm.frames]
+    clash = {n for n in names if names.count(n) > 1}
+    if not clash:
+        return arm, {}
+    arm = arm.copy()
+    renamed = {}
+    for i, f in enumerate(arm.frames):
+        if f.name in clash and f.type == pin.FrameType.BODY:
+            renamed[f"{f.name} (link {i})"] = f.name
+            f.name = f"{f.name} (link {i})"
+            arm.frames[i] = f
+    return arm, renamed
+
+
 @dataclass(frozen=True)
 class Contact:
     """A ground contact: name, position (x, y) in the base frame, m, and
@@ -149,7 +167,12 @@ class MobileManipulator:
             m.appendBodyToJoint(jw, _inertia(wheel.mass, np.zeros(3), I_wheel), pin.SE3.Identity())
             m.addFrame(pin.Frame(name, jw, 0, pin.SE3.Identity(), pin.FrameType.BODY))
         X_mount = pin.SE3(pin.rpy.rpyToMatrix(np.array(d.mount_rpy)), np.array(d.mount_xyz))
-        model = pin.appendModel(m, d.arm_model, base_frame, X_mount)
+        arm, renamed = _link_frames_apart(d.arm_model)
+        model = pin.appendModel(m, arm, base_frame, X_mount)
+        for i, f in enumerate(model.frames):      # the links' own names back
+            if f.name in renamed:
+                f.name = renamed[f.name]
+                model.frames[i] = f
         model.gravity = pin.Motion(np.array([0.0, 0.0, -GRAVITY]), np.zeros(3))
         return model
 

@@ -297,8 +297,10 @@ def _read_ratios(s):
     if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in value):
         s.fail(key, f"must be a list of numbers, got {value!r}")
     for i, v in enumerate(value, start=1):
-        if not math.isfinite(v) or v <= 0.0 or v > MAX_GEAR_RATIO:
-            s.fail(key, f"entry {i} must be a finite number > 0 and <= {MAX_GEAR_RATIO:g}, "
+        if not math.isfinite(v) or v <= 0.0:
+            s.fail(key, f"entry {i} must be a finite number > 0, got {v!r}")
+        if v > MAX_GEAR_RATIO:
+            s.fail(key, f"entry {i} must be <= {MAX_GEAR_RATIO:g} (a plausible gear ratio), "
                         f"got {v!r}")
     if len(set(value)) != len(value):
         dup = next(v for v in value if value.count(v) > 1)
