@@ -198,7 +198,7 @@ def load_description(path, *, doc=None, urdf_text=None):
     s.finish()
 
     s = Section(path, "ground", doc.get("ground", {}))
-    friction = s.number("friction", DEFAULT_GROUND_FRICTION, lo=0.0, lo_open=True, hi=5.0)
+    friction = s.number("friction", DEFAULT_GROUND_FRICTION, lo=0.0, lo_open=True, hi=100.0)
     s.finish()
 
     payload = None
