@@ -81,12 +81,11 @@ class _Progress:
 
 
 def _cmd_size(args):
+    from .description import check_output_dir
     from .description.duty import load_duty_cycle
     from .model import load_robot
     from .report import write_sizing_report
     from .sizing import size
-
-    from .description import check_output_dir
 
     path = _input_file(args.cycle, "CYCLE") or demo_cycle_path()
     out = check_output_dir(args.output)
@@ -194,10 +193,9 @@ def _cmd_contact(args):
 
 
 def _output_dir(path):
-    out = Path(path)
-    if out.exists() and not out.is_dir():
-        raise ConfigError(f"-o {out}: exists and is not a directory")
-    return out
+    from .description import check_output_dir
+
+    return check_output_dir(path)
 # ---------------------------------------------------------- end opspace contact
 
 

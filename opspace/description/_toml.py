@@ -215,8 +215,8 @@ class Section:
             self.fail(key, f"must be {op} {lo:g}{_unit(unit)}, got {value:g}")
         if hi is not None and value > hi:
             self.fail(key, f"must be <= {hi:g}{_unit(unit)}, got {value:g}")
-        if math.isfinite(value):
-            self.plausible(key, value, unit)
+        if math.isfinite(value) and (hi is None if value > 0 else lo is None):
+            self.plausible(key, value, unit)     # a range the key states itself wins
         return value
 
     def plausible(self, key, value, unit, cap=None):
@@ -299,6 +299,7 @@ PLAUSIBLE = {
     "m/s³": 1e5, "rad/s³": 1e5, "N": 1e6, "N·m": 1e6, "N·m or N": 1e6,
     "N·m·s/rad": 1e6, "N·m·s/rad or N·s/m": 1e6, "N·m/A": 1e3, "Ω": 1e4,
     "Hz": 1e6, "1/h": 1e4, "1/s": 1e5, "1/s²": 1e8, "rad or m": 1e3,
+    "Pa": 1e10, "N/m": 1e10, "m²": 1e3,
 }
 
 
