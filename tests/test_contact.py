@@ -32,13 +32,17 @@ def _lift_urdf(m_c=4.0, com_x=0.05, izz=0.07):
 
 
 def _gantry_urdf(m=(3.0, 2.0, 1.0)):
-    """A Cartesian arm: x, y and z slides in series, each carrying the next."""
+    """A Cartesian arm: x, y and z slides in series, each carrying the next
+    (a slide of mass None is a massless link)."""
     I = (0.01, 0.01, 0.01, 0, 0, 0)
+
+    def link(name, mass):
+        return urdf_link(name) if mass is None else urdf_link(name, mass, (0, 0, 0), I)
     return urdf(urdf_link("root"),
                 urdf_joint("sx", "prismatic", "root", "l1", axis=(1, 0, 0), lower=-0.2, upper=0.2),
-                urdf_link("l1", m[0], (0, 0, 0), I),
+                link("l1", m[0]),
                 urdf_joint("sy", "prismatic", "l1", "l2", axis=(0, 1, 0), lower=-0.2, upper=0.2),
-                urdf_link("l2", m[1], (0, 0, 0), I),
+                link("l2", m[1]),
                 urdf_joint("sz", "prismatic", "l2", "l3", axis=(0, 0, 1), lower=-0.2, upper=0.2),
                 urdf_link("l3", m[2], (0, 0, 0), I),
                 urdf_joint("tool_joint", "fixed", "l3", "tool"), urdf_link("tool"))
@@ -64,6 +68,18 @@ def test_gantry_effective_mass_is_the_carried_mass(tmp_path):
     # the hand estimate: half the moving mass plus the payload (ISO/TS 15066 Annex A)
     np.testing.assert_allclose(pm.simple_arm, 0.5 * 6.0, rtol=1e-12)
     np.testing.assert_allclose(pm.simple, 0.5 * robot.total_mass(), rtol=1e-12)
+
+
+def test_point_mass_is_isotropic(tmp_path, rng):
+    # A point mass moved freely in space: Λ = m I, so m_u = m along every
+    # direction (Newton).  Two massless slides carry the third, which holds the
+    # mass at the tool point.
+    robot = make_robot(tmp_path, _gantry_urdf((None, None, 2.5)))
+    q = robot.configuration(arm=[0.1, 0.0, -0.1])
+    tool = ContactPointSpec("tool", "tool", (0, 0, 0))
+    for _ in range(5):
+        pm = contact.effective_masses(robot, q, tool, direction=rng.normal(size=3))
+        np.testing.assert_allclose(pm.base_locked, 2.5, rtol=1e-10)
 
 
 def test_two_link_tip_effective_mass_closed_form(tmp_path):
