@@ -187,14 +187,14 @@ def stubs(monkeypatch):
 
     # the packages themselves (a function of the same name may shadow one)
     sizing, simulate, sweep = (importlib.import_module(f"opspace.{m}")
-                               for m in ("sizing", "simulate", "sweep"))
+                               for m in ("sizing", "simulation", "sweep"))
 
     def stop(*args, **kwargs):
         raise Accepted
 
     class Run:        # the scenario's robot and poses, not the sampled plans
         def __init__(self, scenario, **kwargs):
-            from opspace.description.duty import resolve_pose
+            from opspace.description import resolve_pose
 
             robot = load_robot(scenario.robot_path)
             for key, value in (("[simulation] arm_start", scenario.arm_start),
@@ -357,11 +357,14 @@ def test_every_bundled_file_broken_as_a_whole(models, stubs, tmp_path, how):
 # ---------------------------------------------------------------- the URDF
 def urdf_attributes(text):
     """(element path, attribute) of the first element of each kind that has
-    a numeric attribute (joints and links, their children)."""
+    a numeric attribute (joints and links, their children; not the shapes of
+    <visual> and <collision>, which are for drawing only)."""
     root = ET.fromstring(text)
     seen = []
     for parent in root:
-        for el in [parent] + list(parent.iter()):
+        drawn = {id(e) for v in list(parent.findall("visual")) + list(parent.findall("collision"))
+                 for e in v.iter()}   # drawing only: a bad shape is a note (README, 3-D view)
+        for el in [e for e in parent.iter() if id(e) not in drawn]:
             for attr, value in el.attrib.items():
                 if re.fullmatch(r"[-+0-9.eE ]+", value.strip() or "x"):
                     key = (parent.tag, el.tag, attr, parent.get("type"))
