@@ -67,7 +67,7 @@ class _Progress:
 
 
 def _cmd_size(args):
-    from .description.duty import load_duty_cycle
+    from .description import load_duty_cycle
     from .model import load_robot
     from .report import write_sizing_report
     from .sizing import size
@@ -78,7 +78,7 @@ def _cmd_size(args):
     duty = load_duty_cycle(path, robot=robot)          # cross-checks before computing
     catalogue = args.catalogue
     if catalogue is not None:
-        from .description.catalogue import load_catalogue
+        from .description import load_catalogue
         catalogue = load_catalogue(catalogue)
     out = Path(args.output)
     if out.exists() and not out.is_dir():
@@ -114,9 +114,9 @@ def _cmd_size(args):
 
 
 def _cmd_simulate(args):
-    from .description.scenario import load_scenario
-    from .report.simulation import simulation_text, write_simulation_outputs
-    from .simulate import ScenarioRun, SimulationError
+    from .description import load_scenario
+    from .report import simulation_text, write_simulation_outputs
+    from .simulation import ScenarioRun, SimulationError
 
     path = Path(args.scenario) if args.scenario else demo_robot_path().with_name("pick.toml")
     scenario = load_scenario(path)
@@ -154,7 +154,7 @@ def _cmd_simulate(args):
 def _cmd_contact(args):
     from .contact import check_contacts, load_contact_points, load_regions
     from .model import load_robot
-    from .report.contact import write_contact_report
+    from .report import write_contact_report
 
     robot = load_robot(args.robot or demo_robot_path())
     points = load_contact_points(args.points) if args.points else None
@@ -196,10 +196,10 @@ def _output_dir(path):
 # ------------------------------------------------------------- opspace identify
 def _cmd_identify(args):
     from .description import read_toml
-    from .description.motion_log import load_motion_log
+    from .description import load_motion_log
     from .identify import identify
     from .model import load_robot
-    from .report.identify import write_identify_outputs
+    from .report import write_identify_outputs
 
     robot = load_robot(args.robot)
     doc = read_toml(args.robot)
@@ -282,7 +282,7 @@ def _limits_candidate(args):
         if any(x is not None for x in given):
             raise ConfigError("--motor, --gearbox and --ratio need --catalogue FILE")
         return None
-    from .description.catalogue import load_catalogue
+    from .description import load_catalogue
 
     cat = load_catalogue(args.catalogue)
     if any(x is None for x in given):
@@ -297,7 +297,7 @@ def _limits_candidate(args):
 def _cmd_limits(args):
     from .limits import limits_study
     from .model import load_robot
-    from .report.limits import write_limits_report
+    from .report import write_limits_report
 
     robot = load_robot(args.robot or demo_robot_path())
     candidate = _limits_candidate(args)

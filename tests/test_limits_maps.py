@@ -83,7 +83,7 @@ def test_named_poses_table(demo):
 
 
 def test_heat_map_figure():
-    from opspace.plots.limits import limit_heat_map
+    from opspace.plots import limit_heat_map
     u, v = np.linspace(0, 1, 6), np.linspace(0, 0.5, 4)
     values = np.outer(v, u) + 1.0
     values[0, 0] = np.nan
