@@ -25,8 +25,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..dynamics import caster_forces, static_loads_batch
 from ..stability import ground_wrench, stability_figures
-from ..stability._wrench import _rolling_parts
 
 __all__ = ["FloorRange", "worst_floor"]
 
@@ -127,7 +127,9 @@ def worst_floor(robot, ev):
                 robot.detach_payload()
             robot.set_ground_slope(math.atan(grade))
             w = ground_wrench(robot, ev.qs[j], ev.nu[j], ev.nu_dot[j])
-            cf = _rolling_parts(robot, ev.qs[j], ev.nu[j])[1] if robot.rolling_resistance else None
+            cf = None
+            if robot.rolling_resistance:
+                cf = caster_forces(robot, ev.nu[j], static_loads_batch(robot, ev.qs[j]))
             flat = None
             for c, (_, floor) in enumerate(cases):
                 tr = stability_figures(robot, w, ev.wheel_force[j], mu=mu_low, floor=floor,
