@@ -81,3 +81,29 @@ def test_the_terms_see_the_friction_and_rolling_they_are_given(robot, rng):
     f_rr = k.rolling(robot.model, robot.model.createData(), q, nu)
     assert np.abs(f_rr[:2]).min() > 0 and np.all(f_rr[2:] == 0)
     close(f - f_rr, robot.coulomb * np.sign(nu) + robot.viscous * nu)
+
+
+@needs_kernel
+def test_the_command_input_is_packed_where_the_kernel_reads_each_field(rng):
+    # the kernel describes its input vector (name, offset, size); Python packs by
+    # those names, so a field moved in the C++ cannot be read from the wrong place
+    from opspace.control import BasePlan, OperationalSpaceController, Target
+
+    R = np.linalg.qr(rng.normal(size=(3, 3)))[0]
+    R *= np.sign(np.linalg.det(R))
+    target = Target(rng.normal(size=3), R, rng.normal(size=6), rng.normal(size=6))
+    plan = BasePlan(*rng.normal(size=4))
+    expected = {"position": target.position, "rotation": R.ravel(), "velocity": target.velocity,
+                "acceleration": target.acceleration, "plan_v": [plan.v],
+                "plan_omega": [plan.omega], "plan_a": [plan.a], "plan_alpha": [plan.alpha]}
+    layout = _compiled.target_layout()
+    assert set(layout) == set(expected)
+    for x in (OperationalSpaceController.pack(target, plan),
+              OperationalSpaceController.pack_many(target.position[None], R[None],
+                                                   target.velocity[None],
+                                                   target.acceleration[None],
+                                                   np.array([[plan.v, plan.omega, plan.a,
+                                                              plan.alpha]]))[0]):
+        assert x.shape == (sum(size for _, size in layout.values()),)
+        for name, (offset, size) in layout.items():
+            np.testing.assert_array_equal(x[offset:offset + size], expected[name])

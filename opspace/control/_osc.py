@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -22,6 +23,29 @@ from ..dynamics import friction_model, task_space
 from ._targets import _STILL, BasePlan, CommandInfo, CommandSample, Gains, Target, _frozen
 
 __all__ = ["OperationalSpaceController"]
+
+#: the fields of the compiled command's target, each of its size in this order
+#: when the kernel lays them out contiguously so (`_target_order` checks)
+_TARGET_FIELDS = (("position", 3), ("rotation", 9), ("velocity", 6), ("acceleration", 6),
+                  ("plan_v", 1), ("plan_omega", 1), ("plan_a", 1), ("plan_alpha", 1))
+_EYE3 = np.eye(3)
+
+
+@functools.cache
+def _target_order():
+    """The kernel's target fields as ((name, size), ...) in the order of their
+    offsets when they tile the vector without gaps; None without the kernel."""
+    layout = _compiled.target_layout()
+    if layout is None:
+        return None
+    order = tuple(sorted(layout.items(), key=lambda item: item[1][0]))
+    at, fields = 0, []
+    for name, (offset, size) in order:
+        if offset != at:
+            return ()
+        fields.append((name, size))
+        at += size
+    return tuple(fields)
 
 _LWA = pin.LOCAL_WORLD_ALIGNED
 _WORLD = pin.Convention.WORLD
@@ -198,7 +222,10 @@ class OperationalSpaceController:
         """The target and base plan as the compiled command reads them (one
         vector laid out as the kernel says, `pack_many`); None without the kernel."""
         plan = _STILL if plan is None else plan
-        R = np.eye(3) if target.rotation is None else target.rotation
+        R = _EYE3 if target.rotation is None else target.rotation
+        if _target_order() == _TARGET_FIELDS:      # the kernel's order: one concatenation
+            return np.concatenate((target.position, R.ravel(), target.velocity,
+                                   target.acceleration, (plan.v, plan.omega, plan.a, plan.alpha)))
         x = OperationalSpaceController.pack_many(
             target.position[None], R[None], target.velocity[None], target.acceleration[None],
             np.array([[plan.v, plan.omega, plan.a, plan.alpha]]))
@@ -211,7 +238,6 @@ class OperationalSpaceController:
         positions (n, 3) m, rotations (n, 3, 3), velocities and accelerations
         (n, 6) [linear; angular], plans (n, 4) = (v, ω, a, α) of the base.
         None without the kernel."""
-        from .. import _compiled
         layout = _compiled.target_layout()
         if layout is None:
             return None
