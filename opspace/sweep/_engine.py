@@ -252,7 +252,14 @@ class progress_bar:
 
 
 # ------------------------------------------------------------------ run
-def _executor(workers, cluster, local_cluster):
+def make_executor(workers=None, cluster=None, local_cluster=None, *, function=None):
+    """The executor of a run: local processes (`workers`, default every core) or
+    Dask (`cluster` address, or a `local_cluster` of N workers), running
+    `function(context, task) -> record` (default: a sweep's design point)."""
+    return _executor(workers, cluster, local_cluster, function)
+
+
+def _executor(workers, cluster, local_cluster, function=None):
     if cluster is not None and local_cluster is not None:
         raise ConfigError("give either a Dask cluster address (--cluster) or a local cluster "
                           "size (--local-cluster), not both")
@@ -265,11 +272,11 @@ def _executor(workers, cluster, local_cluster):
                                           or local_cluster < 1):
             raise ConfigError(f"--local-cluster must be a number of workers >= 1, "
                               f"got {local_cluster!r}")
-        return Dask(cluster=cluster, local_cluster=local_cluster)
+        return Dask(cluster=cluster, local_cluster=local_cluster, function=function)
     workers = (os.cpu_count() or 1) if workers is None else workers
     if isinstance(workers, bool) or int(workers) != workers or workers < 1:
         raise ConfigError(f"--workers must be a number of processes >= 1, got {workers!r}")
-    return Processes(int(workers))
+    return Processes(int(workers), function=function)
 
 
 def _write_json(path, data):
