@@ -13,6 +13,23 @@ from .errors import ConfigError, ModelError
 __all__ = ["main"]
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with a one-line error (exit status 2), like a bad file key."""
+
+    def error(self, message):
+        self.exit(2, f"{self.prog}: error: {message} (see {self.prog} --help)\n")
+
+
+def _input_file(path, what):
+    """A file named on the command line: it exists and is a regular file."""
+    from .description import check_file
+
+    if path is None:
+        return None
+    check_file(path, where=f"opspace: {what} argument", what="file")
+    return Path(path)
+
+
 def demo_robot_path():
     """The bundled demo robot description (installed copy, else the repo's)."""
     here = Path(__file__).resolve().parent
@@ -28,7 +45,7 @@ def _cmd_check(args):
     from .report import check_summary
     from .stability import check_standing
 
-    robot = load_robot(args.robot or demo_robot_path())
+    robot = load_robot(_input_file(args.robot, "ROBOT") or demo_robot_path())
     check_standing(robot)
     print(check_summary(robot))
     return 0
@@ -67,22 +84,20 @@ class _Progress:
 
 
 def _cmd_size(args):
-    from .description import load_duty_cycle
+    from .description import check_output_dir, load_duty_cycle
     from .model import load_robot
     from .report import write_sizing_report
     from .sizing import size
 
-    path = Path(args.cycle) if args.cycle else demo_cycle_path()
+    path = _input_file(args.cycle, "CYCLE") or demo_cycle_path()
+    out = check_output_dir(args.output)
     duty = load_duty_cycle(path)
     robot = load_robot(args.robot or duty.robot_path)   # --robot: e.g. an identified one
     duty = load_duty_cycle(path, robot=robot)          # cross-checks before computing
     catalogue = args.catalogue
     if catalogue is not None:
         from .description import load_catalogue
-        catalogue = load_catalogue(catalogue)
-    out = Path(args.output)
-    if out.exists() and not out.is_dir():
-        raise ConfigError(f"-o {out}: exists and is not a directory")
+        catalogue = load_catalogue(_input_file(catalogue, "--catalogue"))
     progress = _Progress(not args.quiet and sys.stderr.isatty())
     try:
         result = size(duty, robot=robot, catalogue=catalogue, search=not args.no_search,
@@ -114,20 +129,19 @@ def _cmd_size(args):
 
 
 def _cmd_simulate(args):
-    from .description import load_scenario
+    from .description import check_output_dir, load_scenario, option_number
     from .report import simulation_text, write_simulation_outputs
     from .simulation import ScenarioRun, SimulationError
 
-    path = Path(args.scenario) if args.scenario else demo_robot_path().with_name("pick.toml")
+    path = _input_file(args.scenario, "SCENARIO") or demo_robot_path().with_name("pick.toml")
+    out = check_output_dir(args.output)
+    option_number("--payload-error", args.payload_error, lo=-0.9, hi=10.0)
     scenario = load_scenario(path)
     if args.robot:                                      # e.g. an identified robot
         from dataclasses import replace
-        scenario = replace(scenario, robot_path=Path(args.robot).resolve())
+        scenario = replace(scenario, robot_path=_input_file(args.robot, "--robot").resolve())
     run = ScenarioRun(scenario, payload_mass_error=args.payload_error,   # validates it all
                       compiled=False if args.reference_loop else None)
-    out = Path(args.output)
-    if out.exists() and not out.is_dir():
-        raise ConfigError(f"-o {out}: exists and is not a directory")
     progress = _Progress(not args.quiet and sys.stderr.isatty())
     try:
         try:
@@ -186,10 +200,9 @@ def _cmd_contact(args):
 
 
 def _output_dir(path):
-    out = Path(path)
-    if out.exists() and not out.is_dir():
-        raise ConfigError(f"-o {out}: exists and is not a directory")
-    return out
+    from .description import check_output_dir
+
+    return check_output_dir(path)
 # ---------------------------------------------------------- end opspace contact
 
 
@@ -248,7 +261,11 @@ def _torque_constant(text):
 def _cmd_sweep(args):
     from .sweep import load_sweep, progress_bar, run_sweep
 
-    path = Path(args.sweep) if args.sweep else demo_robot_path().with_name("sweep.toml")
+    from .sweep import check_options
+
+    path = _input_file(args.sweep, "SWEEP") or demo_robot_path().with_name("sweep.toml")
+    check_options(args.output, workers=args.workers, cluster=args.cluster,
+                  local_cluster=args.local_cluster, resume=args.resume)
     sweep = load_sweep(path)
     bar = progress_bar(enabled=not args.quiet and sys.stderr.isatty())
     try:
@@ -368,7 +385,7 @@ def _cutoff_arg(text):
 
 
 def build_parser():
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="opspace",
         description="Dynamics of mobile manipulators: model checks, drive sizing, simulation.")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
@@ -499,8 +516,8 @@ def main(argv=None):
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
-    except SystemExit as exc:  # argparse already printed its one-line usage error
-        return int(exc.code or 0)
+    except SystemExit as exc:  # argparse printed its one-line error (or the help)
+        return exc.code if isinstance(exc.code, int) else 2
     if args.command is None:
         parser.print_help()
         return 2

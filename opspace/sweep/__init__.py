@@ -42,8 +42,8 @@ The sweep file (TOML; SI units, paths relative to the file)::
     min = 0.05
 """
 
-from ._engine import (PointRecord, SweepResult, evaluate_point, make_executor, progress_bar,
-                      run_sweep)
+from ._engine import (PointRecord, SweepResult, check_options, evaluate_point, make_executor,
+                      progress_bar, run_sweep)
 from ._executors import drive
 from ._pareto import pareto_front
 from ._paths import Figure, parse_figure, parse_path
@@ -57,6 +57,7 @@ __all__ = [
     "PointRecord",
     "Sweep",
     "SweepResult",
+    "check_options",
     "drive",
     "evaluate_point",
     "latin_hypercube",
