@@ -291,7 +291,6 @@ def evaluate_map_chunk(context, task):
 def _run_chunks(robot, targets, q0, options, executor, progress):
     """`_map_chunk` over chunks of `targets` on an executor (see `limits_map`)."""
     from ..errors import ModelError
-    from ..sweep import drive
 
     tasks = [_Chunk(i, targets[k:k + _CHUNK])
              for i, k in enumerate(range(0, len(targets), _CHUNK))]
@@ -306,7 +305,7 @@ def _run_chunks(robot, targets, q0, options, executor, progress):
         if progress is not None:
             progress(min(len(got) * _CHUNK, len(targets)), len(targets))
 
-    drive(executor, context, tasks, on_record, max_retries=2)
+    executor.run(context, tasks, on_record, max_retries=2)
     recs = [got[t.id] for t in tasks]
     arm = np.concatenate([r["arm"] for r in recs])
     values = {k: np.concatenate([r["values"][k] for r in recs]) for k in NAMES}

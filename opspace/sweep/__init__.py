@@ -44,7 +44,6 @@ The sweep file (TOML; SI units, paths relative to the file)::
 
 from ._engine import (PointRecord, SweepResult, check_options, evaluate_point, make_executor,
                       progress_bar, run_sweep)
-from ._executors import drive
 from ._pareto import pareto_front
 from ._paths import Figure, parse_figure, parse_path
 from ._spec import Constraint, Parameter, Point, Sweep, latin_hypercube, load_sweep
@@ -58,7 +57,6 @@ __all__ = [
     "Sweep",
     "SweepResult",
     "check_options",
-    "drive",
     "evaluate_point",
     "latin_hypercube",
     "load_sweep",

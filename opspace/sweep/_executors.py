@@ -121,6 +121,10 @@ class Processes:
             self._pool.shutdown(wait=True, cancel_futures=True)
             self._pool = None
 
+    def run(self, context, tasks, on_record, *, max_retries=2):
+        """`drive` on this executor: every task through `function`, records to `on_record`."""
+        return drive(self, context, tasks, on_record, max_retries=max_retries)
+
 
 class Dask:
     """A Dask distributed client (given, at an address, or a LocalCluster)."""
@@ -211,6 +215,10 @@ class Dask:
             self._own_client.close()
         if self._own_cluster is not None:
             self._own_cluster.close()
+
+    def run(self, context, tasks, on_record, *, max_retries=2):
+        """`drive` on this executor: every task through `function`, records to `on_record`."""
+        return drive(self, context, tasks, on_record, max_retries=max_retries)
 
 
 def drive(executor, context, tasks, on_record, *, max_retries):
