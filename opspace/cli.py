@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
 import sys
 from pathlib import Path
 
@@ -509,11 +510,21 @@ def main(argv=None):
     try:
         return args.func(args)
     except (ConfigError, ModelError) as exc:
-        print(f"opspace: error: {exc}", file=sys.stderr)
+        print(f"opspace: error: {_one_line(exc)}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("opspace: interrupted", file=sys.stderr)
         return 130
+    except Exception as exc:   # a defect of opspace, not of the input: still one line
+        if os.environ.get("OPSPACE_TRACEBACK"):
+            raise
+        print(f"opspace: internal error: {type(exc).__name__}: {_one_line(exc)} (a defect of "
+              f"opspace: please report it; OPSPACE_TRACEBACK=1 shows where)", file=sys.stderr)
+        return 3
+
+
+def _one_line(exc):
+    return " ".join(str(exc).split()) or type(exc).__name__
 
 
 if __name__ == "__main__":
