@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
 import sys
 from pathlib import Path
 
@@ -244,6 +245,48 @@ def _cmd_identify(args):
     return 0
 
 
+def _cmd_excite(args):
+    import json
+    import os
+
+    import numpy as np
+
+    from .identify import design_excitation
+    from .model import load_robot
+
+    robot = load_robot(args.robot)
+    out = _output_dir(args.output)
+    ex = design_excitation(robot, harmonics=args.harmonics, period=args.period,
+                           budget=args.budget, seed=args.seed)
+    t = np.arange(0.0, args.cycles * ex.period, 1.0 / args.rate)
+    pos, vel, acc = ex.motion(t)
+    names = robot.coordinate_names
+    header = ["time", *names, *(f"velocity:{n}" for n in names),
+              *(f"acceleration:{n}" for n in names)]
+    rows = np.column_stack([t, pos, vel, acc])
+    out.mkdir(parents=True, exist_ok=True)
+    status = "designed" if ex.feasible else "infeasible"
+    doc = {"status": status, "period": {"value": ex.period, "unit": "s"},
+           "harmonics": args.harmonics, "coordinates": list(names),
+           "q0": ex.q0.tolist(), "a": ex.a.tolist(), "b": ex.b.tolist(),
+           "condition_number": ex.condition, "condition_number_random_start": ex.condition_start,
+           "limit_use": ex.use}
+    for name, write in (("excitation.csv", lambda p: np.savetxt(
+            p, rows, delimiter=",", header=",".join(header), comments="", fmt="%.9g")),
+                        ("excitation.json", lambda p: p.write_text(json.dumps(doc, indent=2)))):
+        tmp = out / (name + ".part")
+        write(tmp)
+        os.replace(tmp, out / name)
+    worst = max(ex.use, key=ex.use.get)
+    print(f"{status.upper()}: {args.harmonics} harmonics over {ex.period:g} s, regressor "
+          f"condition number {ex.condition:.3g} (best random start {ex.condition_start:.3g}); "
+          f"closest limit: {worst} at {ex.use[worst]:.0%}")
+    print(f"trajectory: {out / 'excitation.csv'} ({args.cycles} periods at {args.rate:g} Hz); "
+          f"coefficients: {out / 'excitation.json'}")
+    print("Run it on the robot under supervision, with its own limits and stops active.")
+    return 0 if ex.feasible else 1
+
+
 def _torque_constant(text):
     name, sep, value = text.partition("=")
     try:
@@ -377,6 +420,30 @@ def _samples_arg(text):
     return n
 
 
+def _count_arg(lo, hi):
+    def parse(text):
+        try:
+            n = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
+        if not lo <= n <= hi:
+            raise argparse.ArgumentTypeError(f"must be within {lo}..{hi}, got {n}")
+        return n
+    return parse
+
+
+def _range_arg(lo, hi, unit):
+    def parse(text):
+        try:
+            v = float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"must be a number, got {text!r}") from None
+        if not lo <= v <= hi:
+            raise argparse.ArgumentTypeError(f"must be within {lo:g}..{hi:g} {unit}, got {text}")
+        return v
+    return parse
+
+
 def _cutoff_arg(text):
     v = float(text)
     if not 0.01 <= v <= 1000.0:       # nan fails both comparisons
@@ -490,6 +557,23 @@ def build_parser():
     p.add_argument("--torque-constant", action="append", metavar="COORDINATE=K",
                    help="motor torque constant (N·m/A) for a current:COORDINATE column")
     p.set_defaults(func=_cmd_identify)
+    p = sub.add_parser("excite", help="design an excitation trajectory for identification "
+                                      "(finite Fourier series, limits kept, well conditioned)")
+    p.add_argument("--robot", required=True, help="robot description TOML")
+    p.add_argument("-o", "--output", default="opspace-excite",
+                   help="output directory (default: ./opspace-excite)")
+    p.add_argument("--harmonics", type=_count_arg(1, 10), default=3,
+                   help="harmonics per coordinate (default 3)")
+    p.add_argument("--period", type=_range_arg(1.0, 120.0, "s"), default=10.0,
+                   help="period of the motion, s (default 10)")
+    p.add_argument("--cycles", type=_count_arg(1, 100), default=2,
+                   help="periods written to the CSV (default 2)")
+    p.add_argument("--rate", type=_range_arg(10.0, 10000.0, "Hz"), default=500.0,
+                   help="sample rate of the CSV, Hz (default 500)")
+    p.add_argument("--budget", type=_count_arg(0, 100000), default=150,
+                   help="objective evaluations of the search (default 150)")
+    p.add_argument("--seed", type=_count_arg(0, 2**31), default=0, help="random seed")
+    p.set_defaults(func=_cmd_excite)
     # ------------------------------------------------------------ opspace sweep
     p = sub.add_parser("sweep", help="size many design points (a sweep file) on local "
                                      "processes or a Dask cluster; CSV and HTML page")
@@ -524,11 +608,21 @@ def main(argv=None):
     try:
         return args.func(args)
     except (ConfigError, ModelError) as exc:
-        print(f"opspace: error: {exc}", file=sys.stderr)
+        print(f"opspace: error: {_one_line(exc)}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("opspace: interrupted", file=sys.stderr)
         return 130
+    except Exception as exc:   # a defect of opspace, not of the input: still one line
+        if os.environ.get("OPSPACE_TRACEBACK"):
+            raise
+        print(f"opspace: internal error: {type(exc).__name__}: {_one_line(exc)} (a defect of "
+              f"opspace: please report it; OPSPACE_TRACEBACK=1 shows where)", file=sys.stderr)
+        return 3
+
+
+def _one_line(exc):
+    return " ".join(str(exc).split()) or type(exc).__name__
 
 
 if __name__ == "__main__":
