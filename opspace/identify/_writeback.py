@@ -26,7 +26,7 @@ import xml.etree.ElementTree as ET
 import numpy as np
 import pinocchio as pin
 
-__all__ = ["corrected_description"]
+__all__ = ["corrected_description", "writable_parts"]
 
 
 def _params(theta, params, i):
@@ -73,6 +73,27 @@ def _set_link_inertia(link, I):
                                     zip(("ixx", "iyy", "izz", "ixy", "ixz", "iyz"), vals)})
 
 
+def writable_parts(robot, params):
+    """{body index: π (10,)} of the part of each body that the identified change
+    is written into: the chassis of [base] (the base body minus the arm's links
+    fixed to it), a wheel, an arm joint's child link (the joint body minus links
+    fixed to it), the payload.  Only parts with mass are adjustable."""
+    d = robot.description
+    root = ET.fromstring(d.arm_urdf.read_text(encoding="utf-8"))
+    links = {l.get("name"): l for l in root.findall("link")}
+    child = {j.get("name"): j.find("child").get("link") for j in root.findall("joint")}
+    out = {}
+    for i, body in enumerate(params.bodies):
+        if body == "base":
+            b = d.base
+            out[i] = _inertia(b.mass, b.com, b.inertia).toDynamicParameters()
+        elif body in ("wheel_right", "wheel_left"):
+            out[i] = params.prior[10 * i:10 * i + 10].copy()
+        elif body in child and child[body] in links:
+            out[i] = _urdf_link_inertia(links[child[body]]).toDynamicParameters()
+    return {i: pi for i, pi in out.items() if pi[0] > 0.0}
+
+
 def corrected_description(ident, doc, urdf_text):
     """(doc, urdf_text, kept) of the identified robot.
 
@@ -83,7 +104,7 @@ def corrected_description(ident, doc, urdf_text):
     import copy
 
     robot, params, fit = ident.robot, ident.params, ident.fit
-    theta, prior = fit.theta, params.prior
+    theta, prior = ident.theta, params.prior
     bad = {b for b, _ in ident.consistency}
     kept = sorted(bad)
     doc = copy.deepcopy(doc)
@@ -129,7 +150,7 @@ def corrected_description(ident, doc, urdf_text):
 
 def _drive_terms(ident, doc, kept):
     """Armature, friction and rolling resistance into [drive], [arm_joint.X], [base]."""
-    robot, params, theta = ident.robot, ident.params, ident.fit.theta
+    robot, params, theta = ident.robot, ident.params, ident.theta
 
     def value(name):
         v = float(theta[params.names.index(name)])
