@@ -3,17 +3,20 @@
 trimesh is optional (the `view3d` extra): without it, or when a file does
 not load, the caller draws the link another way and the page says why.  A
 mesh with more triangles than the page can carry is replaced by its convex
-hull (SciPy's Qhull through trimesh), and said so.
+hull (SciPy's Qhull through trimesh), or by its bounding box when the hull
+is as fine, and said so.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["MAX_MESH_TRIANGLES", "load_mesh"]
+__all__ = ["MAX_MESH_TRIANGLES", "MAX_PAGE_TRIANGLES", "load_mesh"]
 
 #: triangles one mesh may keep in the page (about 40 bytes each once encoded)
 MAX_MESH_TRIANGLES = 6000
+#: triangles all the meshes of a page may keep (about 2.4 MB)
+MAX_PAGE_TRIANGLES = 60000
 
 
 def load_mesh(path, scale=(1.0, 1.0, 1.0), *, max_triangles=MAX_MESH_TRIANGLES):
@@ -46,8 +49,13 @@ def load_mesh(path, scale=(1.0, 1.0, 1.0), *, max_triangles=MAX_MESH_TRIANGLES):
     note = None
     if len(mesh.faces) > max_triangles:
         n = len(mesh.faces)
-        mesh = mesh.convex_hull
-        note = f"{path.name}: {n} triangles, its convex hull ({len(mesh.faces)}) is drawn"
+        hull = mesh.convex_hull
+        if len(hull.faces) <= max_triangles:
+            mesh = hull
+            note = f"{path.name}: {n} triangles, its convex hull ({len(mesh.faces)}) is drawn"
+        else:   # a fine convex mesh: its hull is as fine
+            mesh = trimesh.creation.box(bounds=mesh.bounds)
+            note = f"{path.name}: {n} triangles, its bounding box is drawn"
     rgba = _main_colour(mesh)
     vertices = (np.asarray(mesh.vertices, float) * np.asarray(scale, float)).astype(np.float32)
     return vertices, np.asarray(mesh.faces, np.uint32), rgba, note
