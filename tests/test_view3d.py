@@ -191,6 +191,14 @@ def test_meshes_load_and_missing_or_bad_shapes_fall_back_with_a_note(tmp_path):
     assert F.size == 12
     V = np.frombuffer(base64.b64decode(mesh[2]["positions"]), np.float32).reshape(-1, 3)
     np.testing.assert_allclose(V.max(axis=0) - V.min(axis=0), [0.1, 0.2, 0.3], atol=1e-6)
+    # COLLADA 1.4.1 <asset><unit meter>: the same box written in millimetres
+    from opspace.report._meshes import load_mesh
+    mm = tmp_path / "mm.dae"
+    trimesh.creation.box(extents=(100, 200, 300)).export(tmp_path / "plain.dae")
+    mm.write_text((tmp_path / "plain.dae").read_text().replace(
+        "<asset>", '<asset><unit meter="0.001" name="millimetre"/>'))
+    V = load_mesh(mm)[0]
+    np.testing.assert_allclose(V.max(axis=0) - V.min(axis=0), [0.1, 0.2, 0.3], atol=1e-6)
 
 
 def _page(tmp_path, scene, name):

@@ -57,8 +57,28 @@ def load_mesh(path, scale=(1.0, 1.0, 1.0), *, max_triangles=MAX_MESH_TRIANGLES):
             mesh = trimesh.creation.box(bounds=mesh.bounds)
             note = f"{path.name}: {n} triangles, its bounding box is drawn"
     rgba = _main_colour(mesh)
-    vertices = (np.asarray(mesh.vertices, float) * np.asarray(scale, float)).astype(np.float32)
+    scale = np.asarray(scale, float) * _collada_unit(path)
+    vertices = (np.asarray(mesh.vertices, float) * scale).astype(np.float32)
     return vertices, np.asarray(mesh.faces, np.uint32), rgba, note
+
+
+def _collada_unit(path):
+    """Metres per unit of a COLLADA file's <asset><unit meter>, which trimesh
+    leaves to the caller (URDF viewers honour it); 1 for other formats."""
+    if path.suffix.lower() != ".dae":
+        return 1.0
+    import xml.etree.ElementTree as ET
+
+    try:
+        for _, element in ET.iterparse(str(path)):
+            if element.tag.rsplit("}", 1)[-1] == "unit":
+                meter = float(element.get("meter", "1"))
+                return meter if np.isfinite(meter) and meter > 0 else 1.0
+            if element.tag.rsplit("}", 1)[-1] == "asset":
+                break
+    except (ET.ParseError, ValueError, OSError):
+        pass
+    return 1.0
 
 
 def _main_colour(mesh):
