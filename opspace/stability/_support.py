@@ -44,6 +44,7 @@ N_i = α + β' x_i + γ' y_i of `normal_loads` (the rigid-cap pile-group formula
 from __future__ import annotations
 
 import math
+import weakref
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -422,9 +423,13 @@ def _solve_all(A, bp, Fb, sl, B, e, supported, F, U):
         F[j], U[j] = Fj[0], uj
 
 
+_SUPPORT_MODELS = weakref.WeakKeyDictionary()
+
+
 def support_model(robot) -> SupportModel:
-    """The robot's `SupportModel` (from its description), built once per robot."""
-    cached = getattr(robot, "_support_model", None)
+    """The robot's `SupportModel` (from its description), built once per robot
+    (kept beside it, dropped with it)."""
+    cached = _SUPPORT_MODELS.get(robot)
     if cached is not None:
         return cached
     spec = robot.description.support
@@ -436,7 +441,7 @@ def support_model(robot) -> SupportModel:
         spring_rate=spec.spring_rate, travel=spec.travel,
         rockers=tuple((a, b, np.array(p)) for a, b, p in spec.rockers),
         unevenness=spec.unevenness)
-    robot._support_model = model
+    _SUPPORT_MODELS[robot] = model
     return model
 
 
