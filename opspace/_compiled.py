@@ -40,22 +40,26 @@ def available():
     return _module() is not None
 
 
-def kernel_plant(robot, locked, friction):
+def kernel_plant(robot, locked, friction, stops=True):
     """A compiled `Plant` of the robot (see _kernel.cpp), or None if unavailable.
 
-    locked (nv,) bool: coordinates held still; friction: Coulomb, viscous and
-    rolling resistance on/off.
+    locked (nv,) bool: coordinates held still; friction: stick-slip, viscous
+    friction and rolling resistance on/off; stops: arm joints stop at their
+    position limits.  The levels are those of `opspace.dynamics.stick_slip.StickSlip`.
     """
     k = _module()
     if k is None:
         return None
     from .dynamics.joint_space import _rolling_terms
+    from .dynamics.stick_slip import StickSlip
+    ss = StickSlip(robot, locked, friction=friction, stops=stops)
     terms = _rolling_terms(robot)
     casters = np.array(terms.caster_rows, dtype=float).reshape(-1, 4)
-    free = (~np.asarray(locked, bool)).astype(float)
-    return k.Plant(np.asarray(robot.S, float), free, np.asarray(robot.coulomb, float),
-                   np.asarray(robot.viscous, float), bool(friction),
-                   np.asarray(terms.A_pinv, float), casters, float(robot.rolling_resistance),
+    f = np.asarray
+    return k.Plant(f(robot.S, float), f(locked, float), ss.Fk, ss.Fs, ss.fv,
+                   f(ss.frictional, float), ss.lo, ss.hi, f(ss.qi, float),
+                   f(terms.A_pinv, float), casters,
+                   float(robot.rolling_resistance) if ss.rolling else 0.0,
                    float(robot.wheel_radius))
 
 

@@ -84,7 +84,8 @@ class MobileManipulator:
     nv : int                     number of reduced coordinates
     coordinate_names : list[str] wheel_right, wheel_left, then arm joints
     arm_joint_names : list[str]  the URDF's moving joints, in chain order
-    coulomb, viscous : ndarray (nv,)  friction per reduced coordinate
+    coulomb, viscous : ndarray (nv,)  friction per reduced coordinate (coulomb: kinetic)
+    stiction : ndarray (nv,)     static (breakaway) friction level, >= coulomb
     effort_limit, velocity_limit : ndarray (nv,)  ±limits (inf if unknown)
     lower, upper : ndarray (nv - 2,)   arm position limits
     contacts : tuple[Contact]    the drive-wheel contacts then the casters
@@ -180,6 +181,18 @@ class MobileManipulator:
                 self.coulomb[2 + k] = jd.coulomb
             if jd.viscous is not None:
                 self.viscous[2 + k] = jd.viscous
+        self.stiction = self.coulomb.copy()
+        if d.drive.stiction is not None:
+            self.stiction[:2] = d.drive.stiction
+        for k, jname in enumerate(self.arm_joint_names):
+            jd = d.arm_joints.get(jname)
+            if jd is None or jd.stiction is None:
+                continue
+            if jd.stiction < self.coulomb[2 + k]:
+                raise ConfigError(f"{d.path.name}: [arm_joint.{jname}] stiction must be >= its "
+                                  f"kinetic (coulomb) friction {self.coulomb[2 + k]:g}, got "
+                                  f"{jd.stiction:g}")
+            self.stiction[2 + k] = jd.stiction
         full = np.zeros(self.model.nv)
         full[3:] = armature
         self.model.armature = full

@@ -236,8 +236,15 @@ class RollingLoads:
         """(f_r, f_l), N·m on the wheel coordinates (left-hand side)."""
         w0, w1 = float(nu[0]), float(nu[1])
         k0, k1 = self.k
-        f0 = k0 if w0 > 0 else (-k0 if w0 < 0 else 0.0)
-        f1 = k1 if w1 > 0 else (-k1 if w1 < 0 else 0.0)
+        f0, f1 = self.caster_efforts(nu)
+        f0 += k0 if w0 > 0 else (-k0 if w0 < 0 else 0.0)
+        f1 += k1 if w1 > 0 else (-k1 if w1 < 0 else 0.0)
+        return f0, f1
+
+    def caster_efforts(self, nu):
+        """The casters' share of `wheel_efforts` alone, (f_r, f_l) N·m."""
+        w0, w1 = float(nu[0]), float(nu[1])
+        f0 = f1 = 0.0
         for jx0, jx1, jy0, jy1, cN in self.casters:
             vx, vy = jx0 * w0 + jx1 * w1, jy0 * w0 + jy1 * w1
             speed = math.hypot(vx, vy)

@@ -26,12 +26,22 @@ class PayloadEvent:
     """At time t (s): "pick" attaches `payload` (a `Payload`) to the plant at
     its tool frame, "release" detaches it.  `estimate` is the payload the
     controller's own model is given at the same instant (None: the same; only
-    used when the controller has a robot model of its own)."""
+    used when the controller has a robot model of its own).
+
+    Pick only: `transfer` s, the load-transfer time: the payload's weight is
+    taken up linearly over it (the support it rested on pushes up with
+    (1 − (t − t_pick)/transfer) m g at its centre of mass until then; 0: at
+    once); `speed_limit` m/s, the largest speed of the tool's payload point
+    relative to the payload at rest that counts as a gentle pick (faster: the
+    run's status says "fast_pick").
+    """
 
     t: float
     kind: str
     payload: object = None
     estimate: object = None
+    transfer: float = 0.0
+    speed_limit: float = math.inf
 
     def __post_init__(self):
         if self.kind not in ("pick", "release"):
@@ -40,6 +50,10 @@ class PayloadEvent:
             raise ValueError(f"event time must be finite and >= 0 s, got {self.t}")
         if self.kind == "pick" and self.payload is None:
             raise ValueError("a pick event needs a `payload`")
+        if not (math.isfinite(self.transfer) and self.transfer >= 0):
+            raise ValueError(f"`transfer` must be finite and >= 0 s, got {self.transfer}")
+        if not self.speed_limit > 0:
+            raise ValueError(f"`speed_limit` must be > 0 m/s, got {self.speed_limit}")
 
 
 @dataclass(frozen=True, eq=False)
