@@ -272,7 +272,7 @@ class Plant {
         side_[k] = -1;
       if (side_[k] != 0) {
         if (nu[i] != 0.0) impact = true;
-        if (first_stop_[i] < 0.0) {
+        if (nu[i] != 0.0 && first_stop_[i] < 0.0) {   // arrived, not resting
           first_stop_[i] = double(step_);
           stop_side_[i] = side_[k];
         }

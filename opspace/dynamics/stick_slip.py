@@ -84,7 +84,8 @@ class StickSlip:
     held : (nv,) bool       stuck or at a stop (not `locked`)
     s : (nv,) float         frozen friction direction of the sliding coordinates
     loss : float            J, kinetic energy taken by the impulses so far
-    first_stop : (nv,) int  step index of each coordinate's first stop (-1: none)
+    first_stop : (nv,) int  step index of each coordinate's first arrival at a stop
+                            with a speed (-1: none; resting on one is not counted)
     stop_side : (nv,) int   +1 upper, -1 lower at that first stop
     """
 
@@ -140,7 +141,7 @@ class StickSlip:
                 side[i] = 1
             elif q[j] <= self.lo[i] and nu[i] <= 0.0:
                 side[i] = -1
-            if side[i] and self.first_stop[i] < 0:
+            if side[i] and nu[i] != 0.0 and self.first_stop[i] < 0:   # arrived, not resting
                 self.first_stop[i], self.stop_side[i] = self.step, side[i]
         return side
 

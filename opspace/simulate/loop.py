@@ -231,7 +231,8 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
                                         f"{Qd[i]:.4g}, more than {blowup:g} x its limit "
                                         f"{limit[i]:g}")
                 # the state before the step is recorded; ν̇ at it lands in `out`
-                out = rec.add(t, q, nu, Q, info, held) if step % record_every == 0 else scratch
+                out = (rec.add(t, q, nu, Q, info, held, step % n_ctrl == 0)
+                       if step % record_every == 0 else scratch)
                 Qp = Q if transfer is None else Q + _support(robot, plant.data, q, t, transfer)
                 if kernel is not None:         # one compiled call: q, ν advance in place
                     if step == n_steps:
@@ -276,7 +277,8 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
                         stability=stability, end_payload=picked,
                         loop="compiled" if kernel is not None else "numpy",
                         plant={"friction": bool(friction), "stops": bool(stops),
-                               "impulse_loss": float(loss), "stops_hit": stops_hit})
+                               "impulse_loss": float(loss), "stops_hit": stops_hit,
+                               **({"pick": pick} if pick is not None else {})})
     if status != "completed":
         raise SimulationError(message, time=t, cause=message, result=result)
     found = findings(result, robot, pick=pick)
@@ -348,6 +350,7 @@ class _Recorder:
         self.nu_dot = np.empty((n, self.nv))
         self.sat = np.zeros((n, self.nv), bool)
         self.payload = np.zeros(n, bool)
+        self.fresh = np.zeros(n, bool)
         self.table = None
         self.i = 0
 
@@ -365,9 +368,11 @@ class _Recorder:
         self.q, self.nu, self.Q, self.Qd, self.error, self.target = cols
         self._no_target, self._no_error, self.k = np.full(3, np.nan), np.full(k, np.nan), k
 
-    def add(self, t, q, nu, Q, info, has_payload):
-        """Record a sample; returns its ν̇ row, for the caller to fill."""
+    def add(self, t, q, nu, Q, info, has_payload, fresh=True):
+        """Record a sample (fresh: the controller ran at it, so its target is the
+        one of this instant); returns its ν̇ row, for the caller to fill."""
         i = self.i
+        self.fresh[i] = fresh
         if self.table is None or (info is not None and len(info.error) != self.k):
             self._columns(0 if info is None else len(info.error))
         self.t[i] = t
@@ -412,7 +417,8 @@ class _Recorder:
             tool_rotation=rot, target_position=self.target[sl].copy(), error=err, status=status,
             message=message, dt=dt, control_period=control_period, integrator=integrator,
             coordinate_names=tuple(robot.coordinate_names), effort_limit=robot.effort_limit.copy(),
-            stability=track, extra={"prismatic": prismatic, "loop": loop, "plant": plant or {}})
+            stability=track, extra={"prismatic": prismatic, "loop": loop, "plant": plant or {},
+                                    "control_sample": self.fresh[sl].copy()})
 
 
 def _stability(robot, qs, nus, nu_dots, Qs, payload, end_payload):
