@@ -16,11 +16,13 @@ from .dynamics import (InertiaEllipsoid, TaskSpaceTerms, cartesian_task_space, e
 from .control import BasePlan, CommandInfo, Gains, OperationalSpaceController, Target
 from .errors import ConfigError, ModelError
 from .model import GRAVITY, MobileManipulator, load_robot
-from . import sizing, stability, trajectory  # noqa: E402  (sub-modules as namespaces)
+from . import contact, sizing, stability, trajectory  # noqa: E402  (sub-modules as namespaces)
 from .simulate import SimulationError, SimulationResult, run_scenario, simulate  # noqa: E402
 from . import sweep  # noqa: E402
 from .sweep import load_sweep, run_sweep  # noqa: E402
 from .sizing import SizingResult, size  # noqa: E402
+from . import limits  # noqa: E402
+from .limits import MotionLimits, motion_limits, motion_limits_batch  # noqa: E402
 
 __version__ = "0.1.0"
 
@@ -28,6 +30,7 @@ __all__ = [
     "BasePlan",
     "cartesian_task_space",
     "Catalogue",
+    "contact",
     "CommandInfo",
     "ConfigError",
     "drive_inertia",
@@ -45,12 +48,16 @@ __all__ = [
     "joint_space",
     "JointSpaceTerms",
     "kinetic_energy",
+    "limits",
     "load_catalogue",
     "load_description",
     "load_duty_cycle",
     "load_robot",
     "load_sweep",
     "MobileManipulator",
+    "motion_limits",
+    "motion_limits_batch",
+    "MotionLimits",
     "ModelError",
     "OperationalSpaceController",
     "Payload",

@@ -11,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ._views import simulation_view
 from .sizing import CAUTIONS, _finite
 
 __all__ = ["SIMULATION_ASSUMPTIONS", "simulation_html", "simulation_text",
@@ -173,6 +174,8 @@ def simulation_html(run, result, images, *, compare=None):
                    classes=[["", "ok" if m > 0 else "bad", ""],
                             ["", "ok" if u < 1 else "bad", ""]])
 
+    page.heading("3-D view")
+    page.raw(simulation_view(run, result))
     page.heading("Figures")
     captions = {
         "tracking_error.png": "Tool position (and orientation) error over the run, with the "
@@ -187,6 +190,10 @@ def simulation_html(run, result, images, *, compare=None):
         page.figure(data, captions.get(name, name),
                     mime="image/gif" if name.endswith(".gif") else "image/png")
 
+    contact = result.extra.get("contact")
+    if contact is not None:
+        from .contact import contact_section
+        contact_section(page, contact)
     page.heading("Assumptions")
     page.items(SIMULATION_ASSUMPTIONS)
     return page.render()
@@ -227,6 +234,9 @@ def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True
             **{k: v for k, v in other.summary().items() if k == "tool_position_error"}}
     if "step_check" in result.extra:
         summary["step_check"] = result.extra["step_check"]
+    if result.extra.get("contact") is not None:
+        from .contact import contact_summary
+        summary["contact"] = contact_summary(result.extra["contact"])
     summary["cautions"] = list(CAUTIONS)
     put("summary.json", lambda p: p.write_text(json.dumps(_finite(summary), indent=2,
                                                           ensure_ascii=False, allow_nan=False)))

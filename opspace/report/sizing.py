@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ._views import sizing_view
 from .html import Page, fmt
 from .text import losses as _losses
 
@@ -154,6 +155,9 @@ def sizing_summary(result):
                              "tip_over": result.worst_tip.to_dict(names, units),
                              "instants": _q(len(result.instants), "1")}
         out["shortest_stop"] = result.stop.to_dict(names, units)
+    if result.contact is not None:
+        from .contact import contact_summary
+        out["contact"] = contact_summary(result.contact)
     return out
 
 
@@ -410,6 +414,8 @@ def sizing_html(result, *, progress=None):
                   f"the payload: deceleration {s.deceleration:.2f} m/s², {s.time:.2f} s, "
                   f"{s.distance:.2f} m (limited by {s.limited_by}), on flat ground. Braking "
                   f"harder makes the robot slip or tip.")
+    page.heading("3-D view")
+    page.raw(sizing_view(result))
     page.heading("Drive as described (robot file)")
     d = result.described
     page.table(["figure", "right wheel", "left wheel", "unit"], [
@@ -422,6 +428,9 @@ def sizing_html(result, *, progress=None):
                                 ("energy per cycle", "energy", "J"),
                                 ("regenerable share", "regenerated_share", "1"))],
         left=(0,))
+    if result.contact is not None:
+        from .contact import contact_section
+        contact_section(page, result.contact)
     page.heading("Assumptions")
     page.items(ASSUMPTIONS + (f"Normal loads: {ev.stability.loads.model}.",))
     page.heading("Cautions")

@@ -150,7 +150,20 @@ class ScenarioRun:
                           compiled=self.compiled if compiled is None else compiled,
                           stops=sc.joint_stops)
         result.extra["feedforward"] = bool(self.controller.friction_feedforward)
+        if self.robot.description.contact_points:
+            result.extra["contact"] = self.contact_check(result)
         return result
+
+    def contact_check(self, result):
+        """The contact pre-check along a run of this scenario (`opspace.contact`):
+        each listed contact point's speed against its permissible speed, the
+        picked payload counted from the pick on."""
+        from ..contact import check_contacts
+
+        payload = self.events[0].payload if self.events else None
+        return check_contacts(self.robot, heaviest=False,
+                              motion={"qs": result.q, "nu": result.nu, "t": result.t,
+                                      "payload_flags": result.payload, "payload": payload})
 
 
 def _fit(x, n, *, hold):
