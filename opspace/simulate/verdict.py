@@ -84,10 +84,12 @@ def findings(result, robot, *, pick=None):
         over = st.traction > 1.0
         j = _first(over.any(axis=1))
         if j is not None:
-            w = int(np.argmax(st.traction[j]))
-            out.append(Finding("slip", float(t[j]),
-                               f"{names[w]} needs traction use {st.traction[j, w]:.3g} > 1 "
-                               f"(largest {np.nanmax(st.traction):.3g}): it would slip"))
+            w = int(np.argmax(over[j]))
+            use = st.traction[j, w]
+            cause = (f"{names[w]} needs traction use {use:.3g} > 1 (largest "
+                     f"{np.nanmax(st.traction):.3g}): it would slip" if np.isfinite(use) else
+                     f"{names[w]} has lifted off the floor and cannot pass its force")
+            out.append(Finding("slip", float(t[j]), cause))
     if pick is not None and pick[1] > pick[2]:
         out.append(Finding("fast_pick", pick[0],
                            f"the tool met the payload at {pick[1]:.3g} m/s relative speed, "
