@@ -40,27 +40,24 @@ def available():
     return _module() is not None
 
 
-def kernel_plant(robot, locked, friction, stops=True):
-    """A compiled `Plant` of the robot (see _kernel.cpp), or None if unavailable.
+def kernel_plant(S, locked, Fk, Fs, fv, frictional, lo, hi, qi, A_pinv, casters, c_rr, r):
+    """A compiled `Plant` (see _kernel.cpp) from its arrays, or None if unavailable.
 
-    locked (nv,) bool: coordinates held still; friction: stick-slip, viscous
-    friction and rolling resistance on/off; stops: arm joints stop at their
-    position limits.  The levels are those of `opspace.dynamics.stick_slip.StickSlip`.
+    S (nv_pin, nv) reduction map; locked (nv,) 1.0 for a coordinate held still;
+    Fk, Fs, fv (nv,) kinetic, static and viscous friction (zeros: friction off);
+    frictional (nv,) 1.0 for a coordinate that can stick; lo, hi (nv,) position
+    stops and qi (nv,) their index in q (-1: none); A_pinv (k, 3) static
+    contact-load rows; casters (k − 2, 4) ground-velocity rows; c_rr rolling
+    resistance coefficient (0: none); r wheel radius, m.  `opspace.dynamics`
+    assembles them from a robot (`compiled_plant`).
     """
     k = _module()
-    if k is None or robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows (NumPy loop)
+    if k is None:
         return None
-    from .dynamics.joint_space import _rolling_terms
-    from .dynamics.stick_slip import StickSlip
-    ss = StickSlip(robot, locked, friction=friction, stops=stops)
-    terms = _rolling_terms(robot)
-    casters = np.array(terms.caster_rows, dtype=float).reshape(-1, 4)
     f = np.asarray
-    return k.Plant(f(robot.S, float), f(locked, float), ss.Fk, ss.Fs, ss.fv,
-                   f(ss.frictional, float), ss.lo, ss.hi, f(ss.qi, float),
-                   f(terms.A_pinv, float), casters,
-                   float(robot.rolling_resistance) if ss.rolling else 0.0,
-                   float(robot.wheel_radius))
+    return k.Plant(f(S, float), f(locked, float), f(Fk, float), f(Fs, float), f(fv, float),
+                   f(frictional, float), f(lo, float), f(hi, float), f(qi, float),
+                   f(A_pinv, float), f(casters, float).reshape(-1, 4), float(c_rr), float(r))
 
 
 def frame_placements(robot, qs, frame_id):

@@ -9,7 +9,7 @@ import json
 import pytest
 
 from opspace.description.scenario import load_scenario
-from opspace.simulate import ScenarioRun, compare_runs
+from opspace.simulation import ScenarioRun, compare_runs
 from conftest import DEMO, with_overrides, write_toml
 
 

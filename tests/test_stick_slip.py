@@ -13,7 +13,7 @@ import pinocchio as pin
 import pytest
 
 import opspace
-from opspace.simulate import PayloadEvent, simulate
+from opspace.simulation import PayloadEvent, simulate
 from conftest import DEMO
 
 F_K, F_S = 10.0, 15.0          # the demo lift's kinetic level (URDF friction) and a static one
