@@ -8,7 +8,7 @@ import json
 
 import pytest
 
-from opspace.description.scenario import load_scenario
+from opspace.description import load_scenario
 from opspace.simulation import ScenarioRun, compare_runs
 from conftest import DEMO, with_overrides, write_toml
 
