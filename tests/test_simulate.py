@@ -4,7 +4,6 @@ demo pick, and bad scenario input."""
 from __future__ import annotations
 
 import math
-import re
 
 import numpy as np
 import pytest
@@ -13,7 +12,8 @@ import opspace
 from opspace.description import load_scenario
 from opspace.simulation import (PayloadEvent, ScenarioRun, SimulationError,
                               simulate)
-from conftest import DEMO, base_doc, make_robot, two_link_urdf, with_overrides, write_toml
+from conftest import (DEMO, base_doc, make_robot, mujoco_fall, two_link_urdf, with_overrides,
+                      write_toml)
 
 PICK = DEMO.with_name("pick.toml")
 
@@ -85,43 +85,19 @@ def test_work_energy_balance_with_friction(demo, compiled):
     assert abs(W_in - W_loss - W_stick - dE) <= 1e-4 * np.sum(np.abs(P_in) * dt)
 
 
-def mujoco_arm(robot):
-    """The demo arm URDF in MuJoCo (a general-purpose simulator), no friction,
-    no joint limits, the same armature and gravity."""
-    mujoco = pytest.importorskip("mujoco")
-    src = re.sub(r"<dynamics[^>]*/>", "", robot.description.arm_urdf.read_text())
-    i = src.index(">", src.index("<robot")) + 1
-    src = (src[:i] + '<mujoco><compiler discardvisual="false" fusestatic="false" '
-           'balanceinertia="false"/></mujoco>' + src[i:])
-    m = mujoco.MjModel.from_xml_string(src)
-    m.jnt_limited[:] = 0
-    m.dof_armature[:] = robot.armature[2:]
-    m.opt.gravity[:] = (0.0, 0.0, -opspace.GRAVITY)
-    m.opt.integrator = mujoco.mjtIntegrator.mjINT_RK4
-    m.opt.timestep = 1e-4
-    return mujoco, m
-
-
 def test_arm_free_fall_matches_mujoco(demo, compiled):
     # Base locked (wheels held): the arm falls freely from a pose; MuJoCo's RK4
     # at 0.1 ms on the same URDF is the independent reference (issue: 1e-4 rad
     # over 1 s).  MuJoCo's joint order equals the URDF chain order here.
-    mujoco, m = mujoco_arm(demo)
-    d = mujoco.MjData(m)
     arm0 = np.array([0.3, 0.4, -0.5, 1.2, -0.3, 0.2, 0.1])
-    d.qpos[:] = arm0
+    ref = mujoco_fall(demo, arm0)
     q0 = demo.configuration(arm=arm0)
     locked = np.zeros(demo.nv, bool)
     locked[:2] = True
     res = simulate(demo, None, duration=1.0, q0=q0, dt=1e-3, friction=False, locked=locked,
                    stability=False, compiled=compiled, stops=False)
     ours = np.array([demo.arm_positions(q) for q in res.q[::100]])
-    ref = [d.qpos.copy()]
-    for _ in range(10):
-        for _ in range(1000):
-            mujoco.mj_step(m, d)
-        ref.append(d.qpos.copy())
-    np.testing.assert_allclose(ours, np.array(ref), atol=1e-4, rtol=0)
+    np.testing.assert_allclose(ours, ref, atol=1e-4, rtol=0)
     assert np.abs(ours[-1] - ours[0]).max() > 0.5      # it did move
 
 

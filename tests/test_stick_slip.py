@@ -6,15 +6,13 @@ joint limit."""
 
 from __future__ import annotations
 
-import re
-
 import numpy as np
 import pinocchio as pin
 import pytest
 
 import opspace
 from opspace.simulation import PayloadEvent, simulate
-from conftest import DEMO
+from conftest import DEMO, mujoco_fall
 
 F_K, F_S = 10.0, 15.0          # the demo lift's kinetic level (URDF friction) and a static one
 
@@ -185,16 +183,15 @@ def test_pick_speed_is_the_tool_point_speed_and_is_flagged(demo, compiled):
                    locked=locked, stability=False, compiled=compiled,
                    events=[PayloadEvent(0.001, "pick", payload, speed_limit=0.05)])
     data = demo.model.createData()
-    q, nu = res.q[1], res.nu[1]
-    pin.forwardKinematics(demo.model, data, q, demo.S.dot(res.nu[0] + 1e-3 * res.nu_dot[0]))
+    pin.forwardKinematics(demo.model, data, res.q[1], demo.S.dot(res.nu[0] + 1e-3 * res.nu_dot[0]))
     pin.updateFramePlacements(demo.model, data)
     fid = demo.tool_frame_id
     vel = pin.getFrameVelocity(demo.model, data, fid, pin.LOCAL_WORLD_ALIGNED)
     expected = vel.linear + np.cross(vel.angular, data.oMf[fid].rotation.dot(payload.com))
-    t_pick, speed, limit = res.extra["plant"]["pick"]
+    _, speed, limit = res.extra["plant"]["pick"]
+    assert limit == 0.05
     assert speed == pytest.approx(np.linalg.norm(expected), rel=1e-2)
     assert res.status == "fast_pick" and "t = 0.001 s" in res.message
-    del q, nu
 
 
 def test_a_stop_against_mujoco_joint_limit(demo, compiled):
@@ -204,33 +201,14 @@ def test_a_stop_against_mujoco_joint_limit(demo, compiled):
     # constraint (solref = (−1e5, −3e3): stiffness, damping) is the reference; its
     # stop penetrates by m g / k and rebounds slightly, ours is an inelastic
     # impulse, so the bound is 5 mrad (measured 2 mrad), not round-off.
-    mujoco = pytest.importorskip("mujoco")
-    src = re.sub(r"<dynamics[^>]*/>", "", demo.description.arm_urdf.read_text())
-    i = src.index(">", src.index("<robot")) + 1
-    src = (src[:i] + '<mujoco><compiler discardvisual="false" fusestatic="false" '
-           'balanceinertia="false"/></mujoco>' + src[i:])
-    m = mujoco.MjModel.from_xml_string(src)
-    assert m.jnt_limited.all()                         # limited="true" from the URDF
-    m.jnt_solref[:] = (-1e5, -3e3)
-    m.jnt_solimp[:, :2] = (0.99, 0.99)
-    m.dof_armature[:] = demo.armature[2:]
-    m.opt.gravity[:] = (0.0, 0.0, -opspace.GRAVITY)
-    m.opt.integrator = mujoco.mjtIntegrator.mjINT_RK4
-    m.opt.timestep = 1e-4
-    d = mujoco.MjData(m)
     arm0 = np.array([0.3, 0.0, 0.9, 0.8, 0.0, 0.0, 0.0])
-    d.qpos[:] = arm0
+    ref = mujoco_fall(demo, arm0, stops=(-1e5, -3e3))
     locked = np.zeros(demo.nv, bool)
     locked[:2] = True
     res = simulate(demo, None, duration=1.0, q0=demo.configuration(arm=arm0), dt=5e-4,
                    friction=False, locked=locked, stability=False, compiled=compiled)
     ours = np.array([demo.arm_positions(q) for q in res.q[::200]])
-    ref = [d.qpos.copy()]
-    for _ in range(10):
-        for _ in range(1000):
-            mujoco.mj_step(m, d)
-        ref.append(d.qpos.copy())
-    np.testing.assert_allclose(ours, np.array(ref), atol=5e-3, rtol=0)
+    np.testing.assert_allclose(ours, ref, atol=5e-3, rtol=0)
     hits = {name: (t, side) for name, t, side in res.extra["plant"]["stops_hit"]}
     assert hits["shoulder_lift"][1] == "upper" and 0.3 < hits["shoulder_lift"][0] < 0.5
     assert "joint_limit" in [f["kind"] for f in res.extra["findings"]]
