@@ -143,7 +143,7 @@ def _cmd_simulate(args):
             return 1
         check = None
         if args.step_check:
-            from .simulate import compare_runs
+            from .simulation import compare_runs
             half = run.run(integrator=args.integrator, step=scenario.step / 2,
                            progress=lambda d, t: progress("half step", d, t))
             check = compare_runs(result, half)

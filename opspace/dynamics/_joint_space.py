@@ -171,26 +171,6 @@ class _RollingTerms:
         self.A_rows = [tuple(float(v) for v in row) for row in self.A_pinv]
 
 
-def compiled_plant(robot, locked, friction, stops=True):
-    """The compiled plant of the robot (`opspace._compiled.kernel_plant`), or None.
-
-    locked (nv,) bool: coordinates held still; friction: the stick-slip,
-    viscous friction and rolling resistance on/off; stops: arm joints stop at
-    their position limits.  Levels and stops are those of
-    `opspace.dynamics._stick_slip.StickSlip` (the NumPy reference).
-    """
-    if robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows (the NumPy loop runs)
-        return None
-    from ._stick_slip import StickSlip
-    ss = StickSlip(robot, locked, friction=friction, stops=stops)
-    terms = _rolling_terms(robot)
-    return _compiled.kernel_plant(robot.S, np.asarray(locked, bool), ss.Fk, ss.Fs, ss.fv,
-                                  ss.frictional, ss.lo, ss.hi, ss.qi, terms.A_pinv,
-                                  terms.caster_rows,
-                                  robot.rolling_resistance if ss.rolling else 0.0,
-                                  robot.wheel_radius)
-
-
 def _rolling_terms(robot):
     terms = getattr(robot, "_rolling_terms", None)
     if terms is None:

@@ -56,10 +56,11 @@ from __future__ import annotations
 import numpy as np
 from scipy.linalg import lapack
 
+from .. import _compiled
 from ..errors import ModelError
-from ._joint_space import rolling_loads
+from ._joint_space import _rolling_terms, rolling_loads
 
-__all__ = ["StickSlip"]
+__all__ = ["StickSlip", "compiled_plant"]
 
 
 def _solve(A, b):
@@ -199,3 +200,22 @@ class StickSlip:
             f[0] += c0
             f[1] += c1
         return f
+
+
+def compiled_plant(robot, locked, friction, stops=True):
+    """The compiled plant of the robot (`opspace._compiled.kernel_plant`), or None.
+
+    locked (nv,) bool: coordinates held still; friction: the stick-slip,
+    viscous friction and rolling resistance on/off; stops: arm joints stop at
+    their position limits.  Levels and stops are those of `StickSlip` (the
+    NumPy reference of the kernel's plant).
+    """
+    if robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows (the NumPy loop runs)
+        return None
+    ss = StickSlip(robot, locked, friction=friction, stops=stops)
+    terms = _rolling_terms(robot)
+    return _compiled.kernel_plant(robot.S, np.asarray(locked, bool), ss.Fk, ss.Fs, ss.fv,
+                                  ss.frictional, ss.lo, ss.hi, ss.qi, terms.A_pinv,
+                                  terms.caster_rows,
+                                  robot.rolling_resistance if ss.rolling else 0.0,
+                                  robot.wheel_radius)

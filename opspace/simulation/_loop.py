@@ -12,8 +12,7 @@ import numpy as np
 import pinocchio as pin
 from scipy.linalg import lapack
 
-from ..dynamics._joint_space import compiled_plant
-from ..dynamics._stick_slip import StickSlip
+from ..dynamics._stick_slip import StickSlip, compiled_plant
 from ..errors import ModelError
 from ._result import SimulationError, SimulationResult
 from ._verdict import findings, verdict
