@@ -54,20 +54,10 @@ coordinates take no part in an impulse (they are held).
 from __future__ import annotations
 
 import numpy as np
-from scipy.linalg import lapack
 
-from .. import _compiled
-from ..errors import ModelError
-from ._joint_space import _rolling_terms, rolling_loads
+from ._terms import FrictionLevels, rolling_loads, solve_spd
 
-__all__ = ["StickSlip", "compiled_plant"]
-
-
-def _solve(A, b):
-    _, x, info = lapack.dposv(A, b)
-    if info:
-        raise ModelError(f"mass matrix not positive definite (LAPACK info={info})")
-    return x
+__all__ = ["StickSlip"]
 
 
 class StickSlip:
@@ -93,21 +83,9 @@ class StickSlip:
     def __init__(self, robot, locked, *, friction, stops):
         nv = robot.nv
         self.robot, self.locked = robot, np.asarray(locked, bool).copy()
-        z = np.zeros(nv)
-        self.Fk = robot.coulomb.copy() if friction else z.copy()
-        self.Fs = robot.stiction.copy() if friction else z.copy()
-        self.fv = robot.viscous.copy() if friction else z.copy()
-        self.rolling = bool(friction and robot.rolling_resistance > 0.0)
-        self.frictional = (self.Fs > 0) | (self.Fk > 0)
-        if self.rolling:
-            self.frictional[:2] = True
-        self.lo, self.hi = np.full(nv, -np.inf), np.full(nv, np.inf)
-        self.qi = np.full(nv, -1)
-        if stops:
-            for k, j in enumerate(robot._arm_q_index):
-                if np.isfinite(robot.lower[k]) or np.isfinite(robot.upper[k]):
-                    self.lo[2 + k], self.hi[2 + k], self.qi[2 + k] = (robot.lower[k],
-                                                                        robot.upper[k], j)
+        lv = FrictionLevels(robot, friction=friction, stops=stops)
+        self.Fk, self.Fs, self.fv, self.rolling = lv.Fk, lv.Fs, lv.fv, lv.rolling
+        self.frictional, self.lo, self.hi, self.qi = lv.frictional, lv.lo, lv.hi, lv.qi
         self.stop_coords = np.flatnonzero(self.qi >= 0)
         self.held = np.zeros(nv, bool)
         self.s = np.zeros(nv)
@@ -128,7 +106,7 @@ class StickSlip:
         T0 = 0.5 * nu.dot(M).dot(nu)
         F = ~(I | fixed)
         if F.any():
-            nu[F] += _solve(M[np.ix_(F, F)], M[np.ix_(F, I)].dot(nu[I]))
+            nu[F] += solve_spd(M[np.ix_(F, F)], M[np.ix_(F, I)].dot(nu[I]))
         nu[I] = 0.0
         self.loss += T0 - 0.5 * nu.dot(M).dot(nu)
 
@@ -175,7 +153,7 @@ class StickSlip:
             rhs = base - Fk * s
             nu_dot = np.zeros(len(nu))
             if F.any():
-                nu_dot[F] = _solve(M[np.ix_(F, F)], rhs[F])
+                nu_dot[F] = solve_spd(M[np.ix_(F, F)], rhs[F])
             if not C.any():
                 break
             H = base - M.dot(nu_dot)                         # holding efforts (rows C)
@@ -201,21 +179,3 @@ class StickSlip:
             f[1] += c1
         return f
 
-
-def compiled_plant(robot, locked, friction, stops=True):
-    """The compiled plant of the robot (`opspace._compiled.kernel_plant`), or None.
-
-    locked (nv,) bool: coordinates held still; friction: the stick-slip,
-    viscous friction and rolling resistance on/off; stops: arm joints stop at
-    their position limits.  Levels and stops are those of `StickSlip` (the
-    NumPy reference of the kernel's plant).
-    """
-    if robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows (the NumPy loop runs)
-        return None
-    ss = StickSlip(robot, locked, friction=friction, stops=stops)
-    terms = _rolling_terms(robot)
-    return _compiled.kernel_plant(robot.S, np.asarray(locked, bool), ss.Fk, ss.Fs, ss.fv,
-                                  ss.frictional, ss.lo, ss.hi, ss.qi, terms.A_pinv,
-                                  terms.caster_rows,
-                                  robot.rolling_resistance if ss.rolling else 0.0,
-                                  robot.wheel_radius)

@@ -12,7 +12,8 @@ import numpy as np
 import pinocchio as pin
 from scipy.linalg import lapack
 
-from ..dynamics._stick_slip import StickSlip, compiled_plant
+from ..dynamics import bias_forces, compiled_plant, mass_matrix, solve_spd
+from ..dynamics._stick_slip import StickSlip
 from ..errors import ModelError
 from ._result import SimulationError, SimulationResult
 from ._verdict import findings, verdict
@@ -40,11 +41,11 @@ class _Plant:
         return self.ss.begin(self, q, nu, Q, Mh)
 
     def mass(self, q):
-        return self.St.dot(pin.crba(self.model, self.data, q)).dot(self.S)
+        return mass_matrix(self.robot, q, self.data)
 
     def bias(self, q, nu):
         """h = c + g (nv,) at (q, ν)."""
-        return self.St.dot(pin.nonLinearEffects(self.model, self.data, q, self.S.dot(nu)))
+        return bias_forces(self.robot, q, nu, self.data)
 
     def accel(self, q, nu, Q):
         """ν̇ (nv,) at (q, ν) under efforts Q inside a step (the held set and the
@@ -54,17 +55,10 @@ class _Plant:
         free = self.ss.free
         out = np.zeros(self.nv)
         if free.all():
-            out[:] = _solve(M, rhs)
+            out[:] = solve_spd(M, rhs)
         elif free.any():
-            out[free] = _solve(M[np.ix_(free, free)], rhs[free])
+            out[free] = solve_spd(M[np.ix_(free, free)], rhs[free])
         return out
-
-
-def _solve(M, rhs):
-    _, x, info = lapack.dposv(M, rhs)
-    if info:
-        raise ModelError(f"mass matrix not positive definite (LAPACK info={info})")
-    return x
 
 
 def _payload_point(robot, data, q, com):
