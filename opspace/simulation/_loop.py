@@ -12,8 +12,7 @@ import numpy as np
 import pinocchio as pin
 from scipy.linalg import lapack
 
-from ..dynamics import bias_forces, compiled_plant, mass_matrix, solve_spd
-from ..dynamics._stick_slip import StickSlip
+from ..dynamics import StickSlip, bias_forces, compiled_plant, mass_matrix, solve_spd
 from ..errors import ModelError
 from ._result import SimulationError, SimulationResult
 from ._verdict import findings, verdict
