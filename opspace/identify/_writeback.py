@@ -11,7 +11,9 @@ description (TOML) and its arm URDF:
   bodies to `[wheel]`;
 - armature: `[drive] rotor_inertia` = a / G² (mean of the two wheels) and
   `[arm_joint.X] rotor_inertia`; friction: `[drive] coulomb, viscous` (mean of
-  the wheels), `[arm_joint.X] coulomb, viscous`; `[base] rolling_resistance`;
+  the wheels), `[arm_joint.X] coulomb, viscous` (a `stiction` keeps its ratio
+  to `coulomb`: the static level cannot be identified from motion);
+  `[base] rolling_resistance`;
 - the payload: `[payload] mass, com, inertia` (tool frame).
 
 A body whose corrected parameters are not physical keeps the description's
@@ -27,6 +29,15 @@ import numpy as np
 import pinocchio as pin
 
 __all__ = ["corrected_description", "writable_parts"]
+
+
+def _keep_static_ratio(table, old_coulomb):
+    """A `stiction` (static level, not identifiable from motion) keeps its ratio
+    to the identified kinetic level `coulomb`, and never falls below it."""
+    if "stiction" not in table:
+        return
+    ratio = table["stiction"] / old_coulomb if old_coulomb > 0.0 else 1.0
+    table["stiction"] = max(ratio * table["coulomb"], table["coulomb"])
 
 
 def _params(theta, params, i):
@@ -164,13 +175,17 @@ def _drive_terms(ident, doc, kept):
     arm_names = {params.names[col].rsplit(".", 1)[0]: col for _, col in params.armature}
     wheel_a = [value(f"{w}.armature") for w in ("wheel_right", "wheel_left")]
     drive["rotor_inertia"] = 0.5 * sum(wheel_a) / G ** 2
+    old = float(drive.get("coulomb", 0.0))
     for kind in ("coulomb", "viscous"):
         drive[kind] = 0.5 * sum(value(f"{w}.{kind}") for w in ("wheel_right", "wheel_left"))
+    _keep_static_ratio(drive, old)
     joints = doc.setdefault("arm_joint", {})
-    for name in robot.arm_joint_names:
+    for k, name in enumerate(robot.arm_joint_names):
         entry = joints.setdefault(name, {})
+        old = float(entry.get("coulomb", robot.coulomb[2 + k]))
         for kind in ("coulomb", "viscous"):
             entry[kind] = value(f"{name}.{kind}")
+        _keep_static_ratio(entry, old)
         if name in arm_names:
             a = value(f"{name}.armature")
             ratio = float(entry.get("gear_ratio", 1.0))
