@@ -37,8 +37,6 @@ def _check(tmp_path, capsys, doc):
     ({"support": {"unevenness": -0.001}}, "robot.toml: [support] unevenness must be >= 0 m, got -0.001"),
     ({"ground": {"friction": 0.6, "friction_range": [0.8, 0.4]}},
      "robot.toml: [ground] friction_range must be [low, high] with 0 < low <= high, got [0.8, 0.4]"),
-    ({"ground": {"friction": 0.9, "friction_range": [0.4, 0.8]}},
-     "robot.toml: [ground] friction_range must contain the nominal friction 0.9"),
     ({"support": {"model": "springy"}}, "robot.toml: [support] model must be one of 'equal', "
                                         "'stiffness', 'sprung', got 'springy'"),
     ({"support": {"preload": 50.0}}, "robot.toml: [support] preload needs model"),
