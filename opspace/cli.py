@@ -68,6 +68,7 @@ def _cmd_size(args):
     from .model import load_robot
     from .report import write_sizing_report
     from .sizing import size
+    from .sizing.run import margin_text as pct
 
     path = Path(args.cycle) if args.cycle else demo_cycle_path()
     duty = load_duty_cycle(path)
@@ -83,15 +84,15 @@ def _cmd_size(args):
     progress = _Progress(not args.quiet and sys.stderr.isatty())
     try:
         result = size(duty, robot=robot, catalogue=catalogue, search=not args.no_search,
-                      progress=progress)
+                      basis=args.verdict_basis, progress=progress)
         paths = write_sizing_report(result, out, progress=lambda d, t: progress("figures", d, t))
     finally:
         progress.close()
     print(f"{result.status.upper()}: {result.message}")
     for c in result.robot_criteria:
-        unit = "" if c.unit == "1" else f" {c.unit}"
-        print(f"  {c.name:<10} {c.value:.3g}{unit} (limit {c.limit:g}{unit}), margin {c.margin:+.0%}: "
-              f"{'pass' if c.passed else 'FAIL'} — {c.note}")
+        unit = "" if c.unit in ("", "1") else f" {c.unit}"
+        print(f"  {c.name:<10} {c.value:.3g}{unit} (limit {c.limit:g}{unit}), margin "
+              f"{pct(c.margin)}: {'pass' if c.passed else 'FAIL'} — {c.note}")
     if result.stop is not None:
         s = result.stop
         print(f"  shortest stop from {s.speed:g} m/s (worst arm pose, payload): "
@@ -181,7 +182,12 @@ def build_parser():
                    help="output directory (default: ./opspace-report)")
     p.add_argument("--catalogue", help="motor and gearbox catalogue TOML (default: the cycle's)")
     p.add_argument("--no-search", action="store_true",
-                   help="skip the worst-case arm search and the shortest-stop figure")
+                   help="skip the worst-case arm search, the envelope cases and the "
+                        "shortest-stop figure (the verdict then covers the planned cycle only)")
+    p.add_argument("--verdict-basis", choices=("envelope", "cycle"),
+                   help="envelope: a drive passes the planned cycle AND the cycle with the arm "
+                        "held at each worst-case pose; cycle: the planned cycle only "
+                        "(default: the cycle file's verdict_basis, else envelope)")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_size)
     p = sub.add_parser("simulate", help="simulate a scenario (e.g. a pick while driving) and "

@@ -10,10 +10,16 @@ A duty cycle is a sequence of segments, each starting and ending at rest::
     sample_rate = 200             # Hz, sampling of the cycle (default 200)
     service_factor = 1.25         # multiplies required torques (default 1)
     arm_start = "carry"           # arm pose at t = 0: a [poses] name or values
+    verdict_basis = "envelope"    # "envelope" (default) or "cycle": see below
 
     [[segment]]                   # one table per segment, in order
     kind = "straight"             # straight | arc | turn | stop | arm | dwell
     ...
+
+`verdict_basis`: "envelope" passes a drive only when it passes the planned
+cycle AND the cycle's base motions with the arm held at each worst-case pose
+(with the rated payload); "cycle" restricts the verdict to the planned cycle
+(the report then says what the envelope would decide).
 
 Keys per kind (SI units; `payload = true` holds the robot's rated payload
 during the segment, default false; `label` is free text):
@@ -50,6 +56,7 @@ __all__ = ["DutyCycle", "Segment", "load_duty_cycle", "SEGMENT_KINDS"]
 
 SEGMENT_KINDS = ("straight", "arc", "turn", "stop", "arm", "dwell")
 PROFILES = ("minimum_jerk", "trapezoidal", "s_curve")
+VERDICT_BASES = ("envelope", "cycle")
 
 
 @dataclass(frozen=True)
@@ -81,6 +88,7 @@ class DutyCycle:
     service_factor: float
     arm_start: object
     segments: tuple = field(default_factory=tuple)
+    verdict_basis: str = "envelope"
 
 
 def load_duty_cycle(path, *, robot=None, doc=None):
@@ -104,6 +112,10 @@ def load_duty_cycle(path, *, robot=None, doc=None):
     rate = s.number("sample_rate", 200.0, unit="Hz", lo=1.0, hi=10000.0)
     sf = s.number("service_factor", 1.0, lo=1.0, hi=10.0)
     arm_start = s.raw("arm_start", required=False)
+    basis = s.string("verdict_basis", "envelope")
+    if basis not in VERDICT_BASES:
+        s.fail("verdict_basis", f"must be one of {', '.join(map(repr, VERDICT_BASES))}, "
+                                f"got {basis!r}")
     s.finish()
     entries = doc.get("segment", [])
     if not isinstance(entries, list) or not entries:
@@ -112,7 +124,7 @@ def load_duty_cycle(path, *, robot=None, doc=None):
     duty = DutyCycle(path=path, name=name, robot_path=(path.parent / robot_rel).resolve(),
                      catalogue_path=(path.parent / catalogue_rel).resolve() if catalogue_rel else None,
                      cycles_per_hour=cph, sample_rate=rate, service_factor=sf,
-                     arm_start=arm_start, segments=segments)
+                     arm_start=arm_start, segments=segments, verdict_basis=basis)
     if robot is not None:
         check_against_robot(duty, robot)
     return duty

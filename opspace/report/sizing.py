@@ -63,7 +63,7 @@ def _rms(t, x):
 
 
 def _sweep_summary(sweep, result):
-    from ..sizing.run import ROBOT_CRITERIA, drive_margin
+    from ..sizing.run import drive_margin, robot_level
 
     checks = []
     for c in sweep.checks:
@@ -75,7 +75,7 @@ def _sweep_summary(sweep, result):
             "thermal_rms_motor_torque": _per_wheel(np.atleast_1d(f.thermal_rms_torque), "N·m"),
             "peak_motor_speed": _per_wheel(np.atleast_1d(f.peak_speed), "rad/s"),
             "energy_per_cycle": _per_wheel(np.atleast_1d(f.energy), "J"),
-            "criteria": [k.to_dict() for k in c.criteria if k.name not in ROBOT_CRITERIA]})
+            "criteria": [k.to_dict() for k in c.criteria if not robot_level(k.name)]})
     return {"motor": sweep.motor, "gearbox": sweep.gearbox,
             "passing_ratios": _q(list(sweep.passing_ratios), "1"),
             "passing_ratio_intervals": _q([list(iv) for iv in sweep.pass_intervals], "1"),
@@ -98,6 +98,7 @@ def sizing_summary(result):
     out = {
         "opspace_version": __version__,
         "status": result.status, "message": result.message,
+        "verdict_basis": result.basis,
         "cycle": {"name": duty.name, "file": duty.path.name,
                   "duration": _q(ev.duration, "s"), "samples": _q(len(ev.t), "1"),
                   "sample_rate": _q(duty.sample_rate, "Hz"),
@@ -127,6 +128,7 @@ def sizing_summary(result):
             "power_basis": described.power_basis},
         "stability": {
             "criteria": [c.to_dict() for c in result.robot_criteria],
+            "planned_cycle_criteria": [c.to_dict() for c in result.cycle_criteria],
             "min_tip_over_margin": _q(float(st.margin.min()), "m"),
             "min_normal_load": {c.name: _q(float(np.nanmin(st.loads.N[:, k])), "N")
                                 for k, c in enumerate(robot.contacts)},
@@ -152,7 +154,9 @@ def sizing_summary(result):
         names, units = robot.arm_joint_names, robot.arm_units
         out["worst_case"] = {"peak_wheel_torque": result.worst_torque.to_dict(names, units),
                              "tip_over": result.worst_tip.to_dict(names, units),
+                             "traction_use": result.worst_traction.to_dict(names, units),
                              "instants": _q(len(result.instants), "1")}
+        out["envelope_cases"] = [c.to_dict(names, units) for c in result.cases]
         out["shortest_stop"] = result.stop.to_dict(names, units)
     return out
 
@@ -203,7 +207,7 @@ def _best_per_sweep(sweep):
 
 
 def _verdict_table(page, result):
-    from ..sizing.run import ROBOT_CRITERIA
+    from ..sizing.run import margin_text, robot_level
 
     names = []
     for s in result.sweeps:
@@ -211,7 +215,7 @@ def _verdict_table(page, result):
             for k in c.criteria:
                 if k.name not in names:
                     names.append(k.name)
-    drive_names = [n for n in names if n not in ROBOT_CRITERIA]
+    drive_names = [n for n in names if not robot_level(n)]
     rows, classes = [], []
     for s in result.sweeps:
         for c in s.checks:
@@ -220,7 +224,7 @@ def _verdict_table(page, result):
             by = {k.name: k for k in c.criteria}
             for n in drive_names:
                 k = by.get(n)
-                row.append("–" if k is None else f"{k.margin:+.0%}")
+                row.append("–" if k is None else margin_text(k.margin))
                 cls.append("na" if k is None else ("ok" if k.passed else "bad"))
             rows.append(row)
             classes.append(cls)
@@ -241,10 +245,13 @@ def _ratio_table(page, result):
 
 
 def _criteria_table(page, criteria):
+    from ..sizing.run import margin_text
+
     rows, cls = [], []
     for k in criteria:
-        rows.append([k.name, f"{fmt(k.value)} {k.unit}", f"{fmt(k.limit)} {k.unit}",
-                     f"{k.margin:+.0%}", "pass" if k.passed else "FAIL", k.note])
+        unit = "" if k.unit in ("", "1") else f" {k.unit}"
+        rows.append([k.name, f"{fmt(k.value)}{unit}", f"{fmt(k.limit)}{unit}",
+                     margin_text(k.margin), "pass" if k.passed else "FAIL", k.note])
         cls.append(["", "", "", "", "ok" if k.passed else "bad", ""])
     page.table(["criterion", "required", "limit", "margin", "verdict", "where"], rows,
                left=(0, 5), classes=cls)
@@ -268,10 +275,10 @@ def _figures(result, progress):
     rec = result.recommended
     if result.sweeps:
         bars = []
-        from ..sizing.run import ROBOT_CRITERIA
+        from ..sizing.run import robot_level
         for s in result.sweeps:
             c = _best_per_sweep(s)
-            k = min((k for k in c.criteria if k.name not in ROBOT_CRITERIA), key=lambda k: k.margin)
+            k = min((k for k in c.criteria if not robot_level(k.name)), key=lambda k: k.margin)
             bars.append({"label": f"{c.motor} + {c.gearbox} {c.ratio:g}:1 — {k.name}",
                          "margin": k.margin, "passed": c.passed})
         add(plots.margins_bar(bars, title="Tightest drive margin per motor and gearbox"),
@@ -345,14 +352,27 @@ def _pose_drawings(result):
         if payload is not None:
             robot.attach_payload()
         for wp, what in ((result.worst_torque, "peak wheel torque"),
-                         (result.worst_tip, "least tip-over margin")):
+                         (result.worst_tip, "least tip-over margin"),
+                         (result.worst_traction, "highest traction use")):
             q = robot.configurations(wp.q[None])[0]
-            d = {"label": f"{what}: {wp.value:.3g} {wp.unit}", "points": robot.arm_points(q),
+            unit = "" if wp.unit == "1" else f" {wp.unit}"
+            d = {"label": f"{what}: {wp.value:.3g}{unit}", "points": robot.arm_points(q),
                  "com": robot.com(q)}
             if payload is not None:
                 d["payload"] = robot.frame_placement(q, robot.tool_frame).act(np.array(payload.com))
             out.append(d)
     return out
+
+
+def _basis_words(result):
+    if result.basis == "envelope":
+        return ("Verdict basis: the planned cycle AND the arm's envelope — the cycle's base "
+                "motions repeated with the arm held still at each worst-case pose found below "
+                "(peak wheel torque, least tip-over margin, highest traction use), with the rated "
+                "payload. Each row below is the worst over all of them; its note names the case.")
+    return ("Verdict basis: the planned cycle only (the arm moves as planned). "
+            + ("" if result.envelope_sweeps is not None else
+               "The arm's envelope was not checked (no worst-case search)."))
 
 
 def sizing_html(result, *, progress=None):
@@ -368,16 +388,20 @@ def sizing_html(result, *, progress=None):
     page.caution(CAUTIONS)
     figs = _figures(result, progress)
     fig_iter = iter(figs)
+    page.para(_basis_words(result), cls="meta")
     page.heading("Robot-level criteria (the same for every drive)")
     _criteria_table(page, result.robot_criteria)
     if result.sweeps:
         rec = result.recommended
         page.heading("Verdict per candidate")
         if rec is not None:
-            page.para(f"Recommended (smallest passing motor): {rec[1].motor} with {rec[1].gearbox} "
-                      f"at {rec[1].ratio:g}:1.")
+            page.para(f"Recommended (smallest motor passing every drive criterion): {rec[1].motor} "
+                      f"with {rec[1].gearbox} at {rec[1].ratio:g}:1"
+                      + (" — the robot itself fails a robot-level criterion above: no drive "
+                         "fixes that." if any(not c.passed for c in result.robot_criteria)
+                         else "."))
         page.para("Margins are fractions of each limit after the service factor (below zero "
-                  "fails). Traction and tip-over rows are listed above.")
+                  "fails). Robot-level rows (traction, tip-over, arm limits) are listed above.")
         _verdict_table(page, result)
         page.figure(*next(fig_iter))
         page.heading("Gear ratio")
@@ -398,12 +422,18 @@ def sizing_html(result, *, progress=None):
         page.heading("Worst case of the arm")
         names = robot.arm_joint_names
         rows = []
-        for wp in (result.worst_torque, result.worst_tip):
-            rows.append([wp.objective, f"{wp.value:.4g} {wp.unit}", f"{wp.grid_value:.4g} {wp.unit}",
+        for wp in result.worst:
+            unit = "" if wp.unit == "1" else f" {wp.unit}"
+            rows.append([wp.objective, f"{wp.value:.4g}{unit}", f"{wp.grid_value:.4g}{unit}",
                          ", ".join(f"{n} {v:.2f}" for n, v in zip(names, wp.q)),
                          f"t = {result.instants[wp.instant].t:.2f} s"])
         page.table(["objective", "refined", "best grid point", "pose (rad or m)", "instant"], rows,
                    left=(0, 3, 4))
+        wp = result.worst_torque
+        page.para(f"Only physical poses are searched: {wp.excluded} grid poses with a moving "
+                  f"joint origin or the tool below the floor or inside the chassis footprint box "
+                  f"were left out (link origins and tool point checked; collision geometry is "
+                  f"not used).")
         page.figure(*next(fig_iter))
         s = result.stop
         page.para(f"Shortest stop from {s.speed:g} m/s with the arm in the least-margin pose and "
@@ -420,7 +450,7 @@ def sizing_html(result, *, progress=None):
                                 ("peak motor speed", "peak_speed", "rad/s"),
                                 ("peak power", "peak_power", "W"),
                                 ("energy per cycle", "energy", "J"),
-                                ("regenerable share", "regenerated_share", "1"))],
+                                ("regenerable share", "regenerated_share", ""))],
         left=(0,))
     page.heading("Assumptions")
     page.items(ASSUMPTIONS + (f"Normal loads: {ev.stability.loads.model}.",))

@@ -26,7 +26,7 @@ the wheel's friction and rolling-resistance torque.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -113,7 +113,7 @@ def _states(robot, sample):
     return qs, nu, nu_dot
 
 
-def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None):
+def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None, held=None):
     """Evaluate a duty cycle on `robot` (see the module docstring).
 
     The robot's payload and ground slope are restored on return.
@@ -124,6 +124,10 @@ def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None):
     duty : DutyCycle (validated against this robot)
     sample_rate : Hz, default the cycle's
     progress : callable(done, total) or None
+    held : arm pose (n_arm,) rad or m, or None.  Given, the arm is held still at
+        it through the whole cycle (q̇ = q̈ = 0; arm segments become waits of the
+        same duration) with the rated payload, if described, in every segment:
+        the cycle's base motions with the arm in that pose (the envelope basis).
 
     Returns
     -------
@@ -132,6 +136,9 @@ def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None):
     timeline = build_timeline(duty, robot)
     rate = sample_rate or duty.sample_rate
     sample = timeline.sample(1.0 / rate)
+    if held is not None:
+        q = np.broadcast_to(np.asarray(held, dtype=float), sample.q.shape).copy()
+        sample = replace(sample, q=q, qd=np.zeros_like(q), qdd=np.zeros_like(q))
     if len(sample.t) < 2:
         raise ConfigError(f"{duty.path.name}: the cycle lasts {timeline.duration:g} s: too short "
                           f"to sample at {rate:g} Hz")
@@ -141,6 +148,8 @@ def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None):
     seg_payload = np.array([s.payload for s in duty.segments])
     seg_grade = np.array([s.grade for s in duty.segments])
     payload, grade = seg_payload[sample.segment], seg_grade[sample.segment]
+    if held is not None:
+        payload = np.full(payload.shape, robot.description.payload is not None)
     qs, nu, nu_dot = _states(robot, sample)
     n, nv = nu.shape
     Q = np.empty((n, nv))
