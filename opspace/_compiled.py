@@ -47,7 +47,7 @@ def kernel_plant(robot, locked, friction):
     rolling resistance on/off.
     """
     k = _module()
-    if k is None:
+    if k is None or robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows (NumPy loop)
         return None
     from .dynamics.joint_space import _rolling_terms
     terms = _rolling_terms(robot)
@@ -75,7 +75,7 @@ def frame_placements(robot, qs, frame_id):
 def inverse_dynamics_kernel(robot):
     """The compiled Q = Sᵀ RNEA(q, S ν, S ν̇) of the robot (cached on it), or None."""
     k = _module()
-    if k is None:
+    if k is None or robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows
         return None
     cached = getattr(robot, "_kernel_id", None)
     if cached is None:

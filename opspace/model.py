@@ -30,8 +30,8 @@ from dataclasses import dataclass
 import numpy as np
 import pinocchio as pin
 
-from .description import (Payload, RobotDescription, arm_joint_names,
-                          arm_position_limits, inertia_matrix, load_description)
+from .description import (Payload, RobotDescription, arm_joint_names, arm_position_limits,
+                          independent_joint_names, inertia_matrix, load_description)
 from ._checks import as_vector as _finite
 from .errors import ConfigError
 
@@ -101,17 +101,18 @@ class MobileManipulator:
         self.ground_friction = description.ground_friction
         self.model = self._build(description)
         self.data = self.model.createData()
-        self.arm_joint_names = arm_joint_names(description.arm_model)
+        #: {follower joint: Mimic(independent leader, multiplier, offset)}
+        self.mimic = dict(description.mimic)
+        self.arm_joint_names = independent_joint_names(description.arm_model, self.mimic)
         self.coordinate_names = list(WHEEL_JOINTS) + self.arm_joint_names
         self.nv = len(self.coordinate_names)
         self.n_arm = self.nv - 2
+        self._arm_map = self._joint_map(arm_joint_names(description.arm_model))
         self.S = self._reduction_map()
         self.St = np.ascontiguousarray(self.S.T)
-        self._arm_q_index = [self.model.joints[self.model.getJointId(n)].idx_q
-                             for n in self.arm_joint_names]
-        self._arm_nq = [self.model.joints[self.model.getJointId(n)].nq
-                        for n in self.arm_joint_names]
-        self.lower, self.upper = arm_position_limits(description.arm_model)
+        self._arm_q_index = [iq for iq, _, _, _, _, own in self._arm_map if own]
+        self._arm_nq = [nq for _, nq, _, _, _, own in self._arm_map if own]
+        self.lower, self.upper = arm_position_limits(description.arm_model, self.mimic)
         #: unit of each arm coordinate: "m" for prismatic joints, else "rad"
         # (JointModelPX/PY/PZ/PrismaticUnaligned; revolute ones start with "JointModelR")
         self.arm_units = ["m" if self.model.joints[self.model.getJointId(n)].shortname()
@@ -152,43 +153,72 @@ class MobileManipulator:
         model.gravity = pin.Motion(np.array([0.0, 0.0, -GRAVITY]), np.zeros(3))
         return model
 
+    def _joint_map(self, names):
+        """Per arm joint of the URDF (followers included), in chain order:
+        (idx_q, nq, idx_v in the model, reduced index k, (multiplier, offset),
+        independent?) with q_joint = multiplier · ν-coordinate k + offset."""
+        out = []
+        for name in names:
+            joint = self.model.joints[self.model.getJointId(name)]
+            m = self.mimic.get(name)
+            lead, rule = (name, (1.0, 0.0)) if m is None else (m.leader, (m.multiplier, m.offset))
+            out.append((joint.idx_q, joint.nq, joint.idx_v,
+                        2 + self.arm_joint_names.index(lead), rule, m is None))
+        return out
+
     def _reduction_map(self):
+        """S: the rolling map of the base, identity on the wheels and the
+        independent arm joints, and the multiplier k on a mimic follower's row
+        (q̇_f = k q̇_l, the time derivative of q_f = k q_l + o)."""
         r, b = self.wheel_radius, self.half_track
         S = np.zeros((self.model.nv, self.nv))
         S[0, 0:2] = r / 2.0                      # vx
         S[2, 0], S[2, 1] = r / (2 * b), -r / (2 * b)  # ωz
-        S[3:, :] = np.eye(self.nv)               # wheels and arm
+        S[3, 0] = S[4, 1] = 1.0                  # wheels
+        for _, _, iv, k, (mult, _), _ in self._arm_map:
+            S[iv, k] = mult
         return S
 
     def _set_drive_terms(self, d: RobotDescription):
-        """Armature (reflected rotor inertia), friction and limits per coordinate."""
+        """Armature (reflected rotor inertia), friction and limits per coordinate.
+
+        Per URDF arm joint first (followers included), then reduced with the
+        arm block E of S (q̇_arm = E ν_arm): a follower's viscous friction adds
+        k² D_f to its leader (Eᵀ D E), its Coulomb friction |k| F_f (Eᵀ F
+        sign(E ν)), its armature sits in the model, so Sᵀ M S carries it.
+        """
         arm = d.arm_model
-        self.coulomb = np.zeros(self.nv)
-        self.viscous = np.zeros(self.nv)
-        self.coulomb[:2] = d.drive.coulomb
-        self.viscous[:2] = d.drive.viscous
-        self.coulomb[2:] = arm.friction
-        self.viscous[2:] = arm.damping
-        armature = np.zeros(self.nv)
-        armature[:2] = d.drive.reflected_inertia
-        for k, jname in enumerate(self.arm_joint_names):
+        names = arm_joint_names(arm)
+        coulomb, viscous = np.array(arm.friction, float), np.array(arm.damping, float)
+        armature_full = np.zeros(arm.nv)
+        for j, jname in enumerate(names):
             jd = d.arm_joints.get(jname)
             if jd is None:
                 continue
-            armature[2 + k] = jd.reflected_inertia
+            armature_full[j] = jd.reflected_inertia
             if jd.coulomb is not None:
-                self.coulomb[2 + k] = jd.coulomb
+                coulomb[j] = jd.coulomb
             if jd.viscous is not None:
-                self.viscous[2 + k] = jd.viscous
+                viscous[j] = jd.viscous
+        E = self.S[5:, 2:]
+        self.coulomb = np.concatenate([[d.drive.coulomb] * 2, np.abs(E).T.dot(coulomb)])
+        self.viscous = np.concatenate([[d.drive.viscous] * 2, (E * E).T.dot(viscous)])
         full = np.zeros(self.model.nv)
-        full[3:] = armature
+        full[3:5] = d.drive.reflected_inertia
+        full[5:] = armature_full
         self.model.armature = full
-        self.armature = armature
+        self.armature = np.diag(self.S.T.dot(full[:, None] * self.S)).copy()
+        own = [j for j, entry in enumerate(self._arm_map) if entry[5]]
+        effort = np.where(arm.effortLimit > 0, arm.effortLimit, np.inf)
+        speed = np.where(arm.velocityLimit > 0, arm.velocityLimit, np.inf)
+        for j, (_, _, _, k, (mult, _), independent) in enumerate(self._arm_map):
+            if not independent and mult != 0.0:   # |q̇_l| <= v_f / |k| keeps the follower in
+                speed[own[k - 2]] = min(speed[own[k - 2]], speed[j] / abs(mult))
         self.effort_limit = np.full(self.nv, np.inf)
         self.velocity_limit = np.full(self.nv, np.inf)
         self.effort_limit[:2] = d.drive.torque_limit
-        self.effort_limit[2:] = np.where(arm.effortLimit > 0, arm.effortLimit, np.inf)
-        self.velocity_limit[2:] = np.where(arm.velocityLimit > 0, arm.velocityLimit, np.inf)
+        self.effort_limit[2:] = effort[own]
+        self.velocity_limit[2:] = speed[own]
         if math.isfinite(self.top_speed):
             self.velocity_limit[:2] = self.top_speed / self.wheel_radius
 
@@ -214,29 +244,44 @@ class MobileManipulator:
         elif isinstance(arm, str):
             qa = self.pose(arm)
         else:
-            qa = _finite("arm", arm, self.n_arm)
+            qa = self._arm_values("arm", arm)
         q = np.empty(self.model.nq)
         q[:4] = (x, y, math.cos(theta), math.sin(theta))
         q[4:6] = phi
-        for k, (iq, nq) in enumerate(zip(self._arm_q_index, self._arm_nq)):
+        for iq, nq, _, k, (mult, off), _ in self._arm_map:
+            value = mult * qa[k - 2] + off         # a mimic follower: q_f = k q_l + o
             if nq == 1:
-                q[iq] = qa[k]
+                q[iq] = value
             else:  # continuous joint: (cos, sin)
-                q[iq:iq + 2] = (math.cos(qa[k]), math.sin(qa[k]))
+                q[iq:iq + 2] = (math.cos(value), math.sin(value))
         return q
+
+    def _arm_values(self, name, values):
+        """`values` as a finite vector (n_arm,); the message names the joints."""
+        x = np.asarray(values, dtype=float)
+        joints = ", ".join(self.arm_joint_names)
+        if x.shape != (self.n_arm,):
+            raise ValueError(f"`{name}` must have shape ({self.n_arm},), got {x.shape}: one "
+                             f"value per independent arm joint ({joints})")
+        if not np.all(np.isfinite(x)):
+            raise ValueError(f"`{name}` has non-finite entries: {x} ({joints})")
+        return x
 
     def configurations(self, arm):
         """Configurations (n, nq) with the base at the origin, heading 0, the
         wheels at 0, and the arm at each row of `arm` (n, n_arm)."""
         arm = np.asarray(arm, dtype=float)
         if arm.ndim != 2 or arm.shape[1] != self.n_arm:
-            raise ValueError(f"`arm` must have shape (n, {self.n_arm}), got {arm.shape}")
+            raise ValueError(f"`arm` must have shape (n, {self.n_arm}), one column per "
+                             f"independent arm joint ({', '.join(self.arm_joint_names)}), "
+                             f"got {arm.shape}")
         qs = np.tile(self.configuration(), (len(arm), 1))
-        for k, (iq, nq) in enumerate(zip(self._arm_q_index, self._arm_nq)):
+        for iq, nq, _, k, (mult, off), _ in self._arm_map:
+            value = mult * arm[:, k - 2] + off
             if nq == 1:
-                qs[:, iq] = arm[:, k]
+                qs[:, iq] = value
             else:
-                qs[:, iq], qs[:, iq + 1] = np.cos(arm[:, k]), np.sin(arm[:, k])
+                qs[:, iq], qs[:, iq + 1] = np.cos(value), np.sin(value)
         return qs
 
     def pose(self, name):

@@ -143,7 +143,8 @@ class OperationalSpaceController:
                      self._rhs2, self._GG, self._w, self._s0, robot.nv, self._zero_v, eps * eps,
                      range(k), self._z, self._z[:3], self._z[6:6 + k], self._z[6 + k:])
         # the arm positions are q[6:] unless an arm joint is continuous (cos, sin)
-        self._arm_slice = robot.model.nq == robot.model.nv + 1
+        # and no joint mimics another (q[6:] would hold the followers too)
+        self._arm_slice = robot.model.nq == robot.model.nv + 1 and not robot.mimic
         self._q_shape, self._nu_shape = (robot.model.nq,), (robot.nv,)
         self._info = None
         self._kernel = self._make_kernel(compiled)
@@ -155,10 +156,12 @@ class OperationalSpaceController:
             raise ValueError(f"`compiled` must be None, True or False, got {compiled!r}")
         robot = self.robot
         # the kernel's posture error is q₀ − q[6:] (no continuous arm joint)
-        usable = _compiled.available() and (self.posture is None or self._arm_slice)
+        usable = (_compiled.available() and not robot.mimic
+                  and (self.posture is None or self._arm_slice))
         if compiled and not usable:
             raise RuntimeError("the compiled command is not available (opspace._kernel not "
-                               "built, or an arm joint is continuous): use compiled=None")
+                               "built, an arm joint is continuous, or a joint mimics "
+                               "another): use compiled=None")
         if compiled is False or not usable:
             return None
         from .._kernel import Controller

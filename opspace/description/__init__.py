@@ -10,8 +10,8 @@ from .catalogue import Catalogue, Gearbox, Motor, load_catalogue
 from .duty import DutyCycle, Segment, load_duty_cycle
 from ._toml import Section, check_inertia, inertia_matrix, read_toml
 from .robot import (ArmJointDrive, BaseSpec, DriveSpec, Payload, RobotDescription, WheelSpec,
-                    arm_joint_names, arm_position_limits, load_arm_urdf, load_description,
-                    read_payload)
+                    Mimic, arm_joint_names, arm_position_limits, independent_joint_names,
+                    load_arm, load_arm_urdf, load_description, read_payload)
 
 __all__ = [
     "ArmJointDrive",
@@ -28,6 +28,9 @@ __all__ = [
     "WheelSpec",
     "arm_joint_names",
     "arm_position_limits",
+    "independent_joint_names",
+    "load_arm",
+    "Mimic",
     "check_inertia",
     "inertia_matrix",
     "load_arm_urdf",

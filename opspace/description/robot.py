@@ -35,11 +35,15 @@ import numpy as np
 
 from ..errors import ConfigError
 from ._toml import Section, check_inertia, read_document
+from ._urdf import Mimic, check_inertials, parse_xml, read_mimic
 
 __all__ = [
     "ArmJointDrive",
     "arm_joint_names",
     "arm_position_limits",
+    "independent_joint_names",
+    "load_arm",
+    "Mimic",
     "BaseSpec",
     "DriveSpec",
     "Payload",
@@ -145,6 +149,7 @@ class RobotDescription:
     arm_joints: dict = field(default_factory=dict)
     poses: dict = field(default_factory=dict)
     arm_model: object = None  # pinocchio.Model of the arm alone (fixed base)
+    mimic: dict = field(default_factory=dict)  # follower joint -> Mimic of an independent one
 
 
 # ---------------------------------------------------------------------------
@@ -200,16 +205,16 @@ def load_description(path, *, doc=None, urdf_text=None):
         payload = read_payload(Section(path, "payload", doc["payload"]))
 
     casters = _read_casters(path, doc.get("caster", []), base)
-    arm_model = load_arm_urdf(arm_urdf, where=f"{name}: [robot] arm_urdf", text=urdf_text)
+    arm_model, mimic = load_arm(arm_urdf, where=f"{name}: [robot] arm_urdf", text=urdf_text)
     _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
     arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
-    poses = _read_poses(path, doc.get("poses", {}), arm_model)
+    poses = _read_poses(path, doc.get("poses", {}), arm_model, mimic)
 
     return RobotDescription(
         path=path, name=robot_name, arm_urdf=arm_urdf, tool_frame=tool_frame,
         base=base, wheel=wheel, drive=drive, mount_xyz=mount_xyz,
         mount_rpy=mount_rpy, casters=casters, ground_friction=friction,
-        payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model)
+        payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic)
 
 
 def _read_base(s):
@@ -290,6 +295,13 @@ def load_arm_urdf(urdf_path, *, where, text=None):
     """Parse the arm URDF with Pinocchio (fixed base) and check its inertias;
     `text`: the URDF's content (the file at urdf_path, which names it, is then
     not read)."""
+    return load_arm(urdf_path, where=where, text=text)[0]
+
+
+def load_arm(urdf_path, *, where, text=None):
+    """(pinocchio.Model of the arm, {follower: Mimic}) from the arm URDF: see
+    `load_arm_urdf`; the mimic joints are parsed as ordinary joints by Pinocchio
+    and tied to their leaders by the model's reduction map."""
     import pinocchio as pin
 
     urdf_path = Path(urdf_path)
@@ -297,6 +309,7 @@ def load_arm_urdf(urdf_path, *, where, text=None):
         if not urdf_path.is_file():
             raise ConfigError(f"{where}: URDF file not found: {urdf_path}")
         text = urdf_path.read_text(encoding="utf-8")
+    root = parse_xml(text, urdf_path.name)
     try:
         arm = pin.buildModelFromXML(text)
     except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
@@ -310,31 +323,10 @@ def load_arm_urdf(urdf_path, *, where, text=None):
             raise ConfigError(
                 f"{urdf_path.name}: joint '{arm.names[jid]}' has {joint.nv} degrees "
                 f"of freedom; only revolute, continuous and prismatic joints are supported")
-    _check_urdf_inertias(urdf_path, text)
-    return arm
-
-
-def _check_urdf_inertias(urdf_path, text):
-    """Mass > 0 and a physical inertia for every <inertial> of the URDF."""
-    import xml.etree.ElementTree as ET
-
-    root = ET.fromstring(text)
-    for link in root.iter("link"):
-        inertial = link.find("inertial")
-        if inertial is None:
-            continue
-        lname = link.get("name")
-        where = f"{urdf_path.name}: link '{lname}' <inertial>"
-        mass_el = inertial.find("mass")
-        mass = float(mass_el.get("value", "nan")) if mass_el is not None else math.nan
-        if not mass > 0.0:
-            raise ConfigError(f"{where} <mass value> must be > 0 kg, got {mass}")
-        inertia_el = inertial.find("inertia")
-        if inertia_el is None:
-            raise ConfigError(f"{where} has no <inertia>")
-        keys = ("ixx", "iyy", "izz", "ixy", "ixz", "iyz")
-        vals = [float(inertia_el.get(k, "0")) for k in keys]
-        check_inertia(vals, f"{where} <inertia>")
+    check_inertials(root, urdf_path.name)
+    mimic = read_mimic(root, urdf_path.name, arm_joint_names(arm))
+    arm_position_limits(arm, mimic, file=urdf_path.name)   # a leader with no common range
+    return arm, mimic
 
 
 def _check_tool_frame(arm, tool_frame, name, urdf):
@@ -345,22 +337,40 @@ def _check_tool_frame(arm, tool_frame, name, urdf):
 
 
 def arm_joint_names(arm):
+    """Names of the arm's moving joints in chain order (followers included)."""
     return [arm.names[j] for j in range(1, arm.njoints)]
 
 
-def arm_position_limits(arm):
-    """Lower and upper position limits per arm joint, shape (nv,) each.
+def independent_joint_names(arm, mimic=None):
+    """The arm's independent joints in chain order: the mimic followers left out."""
+    return [n for n in arm_joint_names(arm) if n not in (mimic or {})]
 
-    Continuous joints (nq = 2 in Pinocchio) have no limit: ±inf.
+
+def arm_position_limits(arm, mimic=None, *, file="arm URDF"):
+    """Lower and upper position limits per independent arm joint, shape (n,) each.
+
+    Continuous joints (nq = 2 in Pinocchio) have no limit: ±inf.  A follower
+    q_f = k q_l + o with limits [lo_f, hi_f] narrows its leader's range to
+    [(lo_f − o)/k, (hi_f − o)/k] (the ends swapped when k < 0).
     """
-    lo = np.full(arm.nv, -np.inf)
-    hi = np.full(arm.nv, np.inf)
-    for jid in range(1, arm.njoints):
+    names = arm_joint_names(arm)
+    lo, hi = {}, {}
+    for jid, name in enumerate(names, start=1):
         joint = arm.joints[jid]
-        if joint.nq == 1:
-            lo[joint.idx_v] = arm.lowerPositionLimit[joint.idx_q]
-            hi[joint.idx_v] = arm.upperPositionLimit[joint.idx_q]
-    return lo, hi
+        lo[name], hi[name] = ((arm.lowerPositionLimit[joint.idx_q],
+                               arm.upperPositionLimit[joint.idx_q])
+                              if joint.nq == 1 else (-np.inf, np.inf))
+    for name, m in (mimic or {}).items():
+        if m.multiplier == 0.0:
+            continue
+        ends = sorted(((lo[name] - m.offset) / m.multiplier, (hi[name] - m.offset) / m.multiplier))
+        lo[m.leader], hi[m.leader] = max(lo[m.leader], ends[0]), min(hi[m.leader], ends[1])
+        if lo[m.leader] > hi[m.leader]:
+            raise ConfigError(f"{file}: joint '{name}' mimics '{m.leader}' (q = {m.multiplier:g} q + "
+                              f"{m.offset:g}) but no position of '{m.leader}' keeps both "
+                              f"within their URDF limits")
+    free = independent_joint_names(arm, mimic)
+    return np.array([lo[n] for n in free], float), np.array([hi[n] for n in free], float)
 
 
 def _read_arm_joints(path, table, arm):
@@ -383,19 +393,22 @@ def _read_arm_joints(path, table, arm):
     return drives
 
 
-def _read_poses(path, table, arm):
+def _read_poses(path, table, arm, mimic):
     if not isinstance(table, dict):
         raise ConfigError(f"{path.name}: [poses] must be a table, got {table!r}")
-    n = arm.nv
+    names = independent_joint_names(arm, mimic)
     s = Section(path, "poses", table)
-    lo, hi = arm_position_limits(arm)
+    lo, hi = arm_position_limits(arm, mimic)
     poses = {}
-    for pose_name in table:
-        values = np.array(s.vector(pose_name, n, unit="rad or m"))
+    for pose_name, raw in table.items():
+        if not isinstance(raw, list) or len(raw) != len(names):
+            s.fail(pose_name, f"must list {len(names)} joint values, one per independent arm "
+                              f"joint ({', '.join(names)}; rad or m), got {raw!r}")
+        values = np.array(s.vector(pose_name, len(names), unit="rad or m"))
         bad = np.flatnonzero((values < lo - 1e-9) | (values > hi + 1e-9))
         if bad.size:
             j = int(bad[0])
-            s.fail(pose_name, f"puts joint '{arm.names[j + 1]}' at {values[j]:g}, outside "
+            s.fail(pose_name, f"puts joint '{names[j]}' at {values[j]:g}, outside "
                               f"its URDF limits [{lo[j]:g}, {hi[j]:g}]")
         poses[pose_name] = values
     s.finish()

@@ -165,7 +165,8 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
         kernel = kernel_plant(robot, locked, friction)
         if kernel is None and compiled:
             raise RuntimeError("the compiled simulation kernel (opspace._kernel) is not "
-                               "available: reinstall opspace with a C++ compiler on PATH")
+                               "available (not built, or a joint mimics another): reinstall "
+                               "opspace with a C++ compiler on PATH, or use compiled=None")
     scratch = np.zeros(robot.nv)
     model, S = robot.model, robot.S
     S_h = (S * (0.5 * dt), S * dt, S * (dt / 6.0))     # S pre-scaled for the RK4 stages
