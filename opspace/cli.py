@@ -172,6 +172,9 @@ def build_parser():
     parser = argparse.ArgumentParser(
         prog="opspace",
         description="Dynamics of mobile manipulators: model checks, drive sizing, simulation.")
+    from . import __version__
+
+    parser.add_argument("--version", action="version", version=f"opspace {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     p = sub.add_parser("check", help="load and validate a robot description, print a summary")
     p.add_argument("robot", nargs="?", help="robot description TOML (default: the bundled demo)")
@@ -233,6 +236,8 @@ def main(argv=None):
         args = parser.parse_args(argv)
     except SystemExit as exc:  # argparse already printed its one-line usage error
         return int(exc.code or 0)
+    except BrokenPipeError:    # --help or --version piped into a closed reader
+        return _pipe_closed()
     if args.command is None:
         parser.print_help()
         return 2
@@ -244,6 +249,22 @@ def main(argv=None):
     except KeyboardInterrupt:
         print("opspace: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        return _pipe_closed()
+
+
+def _pipe_closed():
+    """The reader of our output went away (e.g. `| head`): stop quietly.
+
+    Later writes (and Python's flush at exit) go to the null device, so no
+    second error is printed; the status is 128 + SIGPIPE, as a shell reports.
+    """
+    import os
+
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    os.dup2(devnull, sys.stdout.fileno())
+    os.close(devnull)
+    return 141
 
 
 if __name__ == "__main__":

@@ -213,3 +213,33 @@ def test_verdict_basis_key_and_flag(tmp_path):
     bad = _cycle(tmp_path, segments, arm_start="folded", verdict_basis="everything")
     with pytest.raises(opspace.ConfigError, match="verdict_basis.*'envelope', 'cycle'"):
         opspace.description.load_duty_cycle(bad)
+
+
+# ------------------------------------------------------------------ friction bookkeeping
+
+def test_back_driven_gearbox_counts_efficiency_once(tmp_path):
+    # Downhill at constant speed on a ramp of angle α = atan(grade) < 0, COM on
+    # the centre line, no rolling resistance: Newton along the ramp gives each
+    # wheel's gearbox output torque τ_out = m g sin α r / 2 + c, with c the
+    # wheel-side bearing friction ([drive] coulomb) and nothing of the gearbox.
+    # Here τ_out < 0 while the wheel turns forward: the load back-drives the
+    # motor, whose torque is τ_out η / G (common practice, no source), η applied
+    # once; driving uphill it is τ_out / (G η).
+    c, eta, G, r = 0.3, 0.8, 20.0, 0.1
+    doc = rect_robot_doc(drive={"rotor_inertia": 2e-5, "gear_ratio": G, "efficiency": eta,
+                                "coulomb": c})
+    robot = make_robot(tmp_path, planar_arm(), doc)
+    m = robot.total_mass()
+    for grade in (-0.2, 0.2):
+        path = _cycle(tmp_path, [{"kind": "straight", "distance": 3.0, "speed": 0.5,
+                                  "acceleration": 0.5, "grade": grade}])
+        res = opspace.size(path, search=False)
+        ev = res.evaluation
+        k = int(np.argmin(np.abs(ev.t - ev.duration / 2)))        # mid-cruise
+        assert ev.a[k] == 0.0 and ev.v[k] > 0.0
+        alpha = math.atan(grade)
+        tau_out = m * G0 * math.sin(alpha) * r / 2 + c
+        assert (tau_out < 0) == (grade < 0)          # downhill back-drives, uphill drives
+        np.testing.assert_allclose(ev.tau_out[k], [tau_out, tau_out], rtol=1e-9, atol=1e-9)
+        T_m = tau_out * eta / G if tau_out < 0 else tau_out / (G * eta)
+        np.testing.assert_allclose(res.described.torque[k], [T_m, T_m], rtol=1e-9, atol=1e-12)

@@ -37,7 +37,10 @@ stop       an emergency stop: speed (m/s) reached at `acceleration`, held
            for `cruise` s (default 0.5), then braked at `deceleration`;
            grade as for straight
 arm        to (a [poses] name or joint values), duration (s), profile
-           (minimum_jerk | trapezoidal | s_curve; default minimum_jerk)
+           (minimum_jerk | trapezoidal | s_curve; default minimum_jerk),
+           offset (s, optional: the move runs during the segment before it,
+           starting `offset` s after that segment starts; without it the move
+           follows that segment)
 dwell      duration (s); grade (parked on a ramp)
 =========  ==================================================================
 """
@@ -121,6 +124,7 @@ def load_duty_cycle(path, *, robot=None, doc=None):
     if not isinstance(entries, list) or not entries:
         raise ConfigError(f"{path.name}: the cycle has no [[segment]]: at least one is needed")
     segments = tuple(_read_segment(path, i, e) for i, e in enumerate(entries))
+    _check_overlaps(path, segments)
     duty = DutyCycle(path=path, name=name, robot_path=(path.parent / robot_rel).resolve(),
                      catalogue_path=(path.parent / catalogue_rel).resolve() if catalogue_rel else None,
                      cycles_per_hour=cph, sample_rate=rate, service_factor=sf,
@@ -150,6 +154,25 @@ def _read_segment(path, i, entry):
     values = _READERS[kind](s)
     s.finish()
     return Segment(index=i, kind=kind, label=label, payload=payload, grade=grade, values=values)
+
+
+def _check_overlaps(path, segments):
+    """An arm move with `offset` runs during the segment before it: that one
+    must be a base segment (or a dwell) with the same payload."""
+    for seg in segments:
+        if seg.kind != "arm" or seg.values["offset"] is None:
+            continue
+        where = f"{path.name}: [[segment]] {seg.index + 1} (arm) offset"
+        prev = segments[seg.index - 1] if seg.index > 0 else None
+        if prev is None or prev.kind == "arm":
+            raise ConfigError(f"{where} = {seg.values['offset']:g} s: an arm move with an "
+                              f"offset runs during the segment before it, which must be a base "
+                              f"segment or a dwell, got "
+                              f"{'none' if prev is None else 'an arm move'}")
+        if prev.payload != seg.payload:
+            raise ConfigError(f"{where}: the move runs during segment {prev.index + 1}, so its "
+                              f"payload must be the same ({str(prev.payload).lower()}), got "
+                              f"{str(seg.payload).lower()}")
 
 
 def _nonzero(s, key, unit):
@@ -204,7 +227,7 @@ def _arm(s):
     if profile not in PROFILES:
         s.fail("profile", f"must be one of {', '.join(PROFILES)}, got {profile!r}")
     return {"to": target, "duration": s.number("duration", unit="s", lo=0.0, lo_open=True),
-            "profile": profile}
+            "profile": profile, "offset": s.number("offset", unit="s", lo=0.0, required=False)}
 
 
 def _dwell(s):

@@ -128,11 +128,11 @@ def sizing_summary(result):
             "power_basis": described.power_basis},
         "stability": {
             "criteria": [c.to_dict() for c in result.robot_criteria],
-            "planned_cycle_criteria": [c.to_dict() for c in result.cycle_criteria],
             "min_tip_over_margin": _q(float(st.margin.min()), "m"),
             "min_normal_load": {c.name: _q(float(np.nanmin(st.loads.N[:, k])), "N")
                                 for k, c in enumerate(robot.contacts)},
             "load_model": st.loads.model},
+        "planned_cycle": {"criteria": [c.to_dict() for c in result.cycle_criteria]},
         "candidates": [_sweep_summary(s, result) for s in result.sweeps],
         "assumptions": list(ASSUMPTIONS),
         "cautions": list(CAUTIONS),
@@ -219,8 +219,9 @@ def _verdict_table(page, result):
     rows, classes = [], []
     for s in result.sweeps:
         for c in s.checks:
-            row = [c.motor, c.gearbox, f"{c.ratio:g}", "pass" if c.passed else "FAIL"]
-            cls = ["", "", "", "ok" if c.passed else "bad"]
+            ok = all(k.passed for k in c.criteria if not robot_level(k.name))
+            row = [c.motor, c.gearbox, f"{c.ratio:g}", "pass" if ok else "FAIL"]
+            cls = ["", "", "", "ok" if ok else "bad"]
             by = {k.name: k for k in c.criteria}
             for n in drive_names:
                 k = by.get(n)
@@ -228,8 +229,49 @@ def _verdict_table(page, result):
                 cls.append("na" if k is None else ("ok" if k.passed else "bad"))
             rows.append(row)
             classes.append(cls)
-    page.table(["motor", "gearbox", "ratio", "verdict"] + drive_names, rows,
+    page.table(["motor", "gearbox", "ratio", "drive verdict"] + drive_names, rows,
                left=(0, 1), classes=classes)
+
+
+def _margin_class(margin):
+    """CSS class of a margin cell (see report.html's palette)."""
+    if not margin >= 0.0:
+        return "bad"
+    return "m1" if margin < 0.1 else ("m2" if margin < 0.3 else "m3")
+
+
+def _candidate_matrix(page, result):
+    """Per gearbox family, motors × catalogue ratios: each cell the tightest
+    drive criterion and its margin, shaded by margin; the recommended cell framed."""
+    from ..sizing.run import margin_text, robot_level
+
+    rec = result.recommended
+    families = []
+    for s in result.sweeps:
+        if s.gearbox not in families:
+            families.append(s.gearbox)
+    for family in families:
+        sweeps = [s for s in result.sweeps if s.gearbox == family]
+        ratios = sorted({c.ratio for s in sweeps for c in s.checks})
+        rows, classes = [], []
+        for s in sweeps:
+            row, cls = [s.motor], [""]
+            by_ratio = {c.ratio: c for c in s.checks}
+            for G in ratios:
+                c = by_ratio.get(G)
+                if c is None:
+                    row.append("–")
+                    cls.append("na")
+                    continue
+                k = min((k for k in c.criteria if not robot_level(k.name)),
+                        key=lambda k: k.margin)
+                row.append(f"{margin_text(k.margin)} {k.name}")
+                mark = " rec" if rec is not None and rec[1] is c else ""
+                cls.append(_margin_class(k.margin) + mark)
+            rows.append(row)
+            classes.append(cls)
+        page.heading(f"{family}: motor × ratio", level=3)
+        page.table(["motor"] + [f"{G:g}:1" for G in ratios], rows, left=(0,), classes=classes)
 
 
 def _ratio_table(page, result):
@@ -402,6 +444,11 @@ def sizing_html(result, *, progress=None):
                          else "."))
         page.para("Margins are fractions of each limit after the service factor (below zero "
                   "fails). Robot-level rows (traction, tip-over, arm limits) are listed above.")
+        page.para("At a glance: each cell is a motor at a catalogue ratio, showing its tightest "
+                  "drive criterion and that margin (orange: fails; deeper blue: more margin; "
+                  "framed: recommended). The full table follows.")
+        _candidate_matrix(page, result)
+        page.heading("All candidates and criteria", level=3)
         _verdict_table(page, result)
         page.figure(*next(fig_iter))
         page.heading("Gear ratio")

@@ -47,24 +47,32 @@ def check_summary(robot):
     lines.append("")
     poses = [("neutral (arm at zero)", robot.configuration())]
     poses += [(name, robot.configuration(arm=name)) for name in d.poses]
-    header = (f"{'arm pose':<24}{'COM x,y,z [m]':>24}{'I_P [kg m^2]':>14}{'a [-]':>8}"
-              f"{'M_w [kg m^2]':>44}{'wheel mass R/L [kg]':>22}")
-    lines.append("locked-arm inertia seen by the drive wheels "
-                 "(a = I_P/(m b^2): yaw inertia about the pivot over m b^2)")
+    r2 = robot.wheel_radius ** 2
+    header = (f"{'arm pose':<24}{'COM x,y,z [m]':>24}{'m_line R / L [kg]':>20}"
+              f"{'I_P [kg m^2]':>14}{'a':>7}   M_w [kg m^2]")
+    lines.append("what the drive wheels accelerate with the arm locked:")
+    lines.append("  m_line: straight-line mass per wheel, (M_w[i,0] + M_w[i,1]) / r^2: the mass "
+                 "each wheel drives when both accelerate alike (its share of the robot plus "
+                 "its own spin and rotor inertia over r^2)")
+    lines.append("  I_P: yaw inertia of the whole robot about the pivot (the midpoint of the "
+                 "wheel axle)")
+    lines.append("  a = I_P / (m b^2): how the yaw inertia compares with the mass at the "
+                 "half track b (1: the wheels are independent)")
+    lines.append("  M_w: the 2x2 wheel inertia matrix, wheel torques = M_w x wheel accelerations "
+                 "(right, left)")
     lines.append(header)
     for name, q in poses:
         di = drive_inertia(robot, q)
         com = ", ".join(f"{v:+.3f}" for v in di.com)
         Mw = di.M_w
+        line = (Mw[0, 0] + Mw[0, 1]) / r2, (Mw[1, 0] + Mw[1, 1]) / r2
         M_text = f"[[{Mw[0, 0]:.4f}, {Mw[0, 1]:.4f}], [{Mw[1, 0]:.4f}, {Mw[1, 1]:.4f}]]"
-        lines.append(f"{name:<24}{com:>24}{di.yaw_inertia:>14.3f}{di.distribution:>8.3f}"
-                     f"{M_text:>44}{f'{di.wheel_mass[0]:.1f} / {di.wheel_mass[1]:.1f}':>22}")
+        lines.append(f"{name:<24}{com:>24}{f'{line[0]:.1f} / {line[1]:.1f}':>20}"
+                     f"{di.yaw_inertia:>14.3f}{di.distribution:>7.3f}   {M_text}")
     if not d.poses:
         lines.append("(no [poses] in the description: add e.g. a side-reach pose to see "
                      "how the arm changes these figures)")
     lines.append("")
-    lines.append("wheel mass = M_w[i, i] / r^2: the translational mass each wheel accelerates; "
-                 "it includes the reflected rotor inertia and the wheel's spin inertia.")
     lines.append(CAUTION)
     return "\n".join(lines)
 

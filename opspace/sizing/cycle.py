@@ -39,14 +39,11 @@ from ..stability import stability_track, tyre_forces
 __all__ = ["CycleEvaluation", "build_timeline", "evaluate_cycle"]
 
 
-def _piece(seg, robot, duty, q_arm):
-    """(Piece, arm position after it) for one validated segment."""
+def _move(seg, robot, duty, q_arm):
     v = seg.values
-    if seg.kind == "arm":
-        target = resolve_pose(duty, robot, v["to"], f"[[segment]] {seg.index + 1} (arm) to")
-        move = tr.joint_move(q_arm, target, v["duration"], profile=v["profile"])
-        return tr.Piece(arm=move), target
-    return tr.base_piece(seg.kind, v), q_arm
+    target = resolve_pose(duty, robot, v["to"], f"[[segment]] {seg.index + 1} (arm) to")
+    return tr.joint_move(q_arm, target, v["duration"], profile=v["profile"],
+                         delay=v.get("offset") or 0.0), target
 
 
 def start_pose(duty, robot):
@@ -56,13 +53,23 @@ def start_pose(duty, robot):
 
 
 def build_timeline(duty, robot):
-    """The duty cycle as a `trajectory.Timeline` (one piece per segment)."""
+    """The duty cycle as a `trajectory.Timeline` and, per piece, the index of
+    the segment it comes from (an arm move with an `offset` shares the piece of
+    the segment before it, whose index it takes)."""
     q_arm = start_pose(duty, robot)
-    pieces = []
+    pieces, owner = [], []
     for seg in duty.segments:
-        piece, q_arm = _piece(seg, robot, duty, q_arm)
-        pieces.append(piece)
-    return tr.Timeline(pieces, q_start=start_pose(duty, robot))
+        if seg.kind == "arm":
+            move, q_arm = _move(seg, robot, duty, q_arm)
+            if seg.values.get("offset") is not None:
+                pieces[-1] = tr.Piece(base=pieces[-1].base, arm=move,
+                                      duration=max(pieces[-1].duration, move.duration))
+                continue
+            pieces.append(tr.Piece(arm=move))
+        else:
+            pieces.append(tr.base_piece(seg.kind, seg.values))
+        owner.append(seg.index)
+    return tr.Timeline(pieces, q_start=start_pose(duty, robot)), np.array(owner)
 
 
 @dataclass(frozen=True, eq=False)
@@ -133,9 +140,10 @@ def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None, held=None):
     -------
     CycleEvaluation
     """
-    timeline = build_timeline(duty, robot)
+    timeline, owner = build_timeline(duty, robot)
     rate = sample_rate or duty.sample_rate
     sample = timeline.sample(1.0 / rate)
+    sample = replace(sample, segment=owner[sample.segment])
     if held is not None:
         q = np.broadcast_to(np.asarray(held, dtype=float), sample.q.shape).copy()
         sample = replace(sample, q=q, qd=np.zeros_like(q), qdd=np.zeros_like(q))

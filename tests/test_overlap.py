@@ -1,0 +1,73 @@
+"""Motions that overlap as on the real robot: an arm move during a base segment.
+
+Wheel torques against an independent derivation of the same robot (Kane's
+method with sympy, `tests/reference/kane_diffdrive.py`: Kane & Levinson,
+*Dynamics: Theory and Applications*, 1985, ch. 6), kinematics against the
+minimum-jerk closed form (Flash & Hogan, J. Neuroscience 5(7), 1985).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+pytest.importorskip("sympy")
+
+import opspace  # noqa: E402
+from opspace.sizing.cycle import evaluate_cycle  # noqa: E402
+from conftest import write_toml  # noqa: E402
+
+try:  # tests/ as a package (rootdir on sys.path) or as a plain directory
+    from tests.reference import kane_diffdrive as kane
+except ModuleNotFoundError:
+    from reference import kane_diffdrive as kane
+
+Q0, Q1 = [0.3, 0.0, -0.4], [1.5, 0.1, 0.6]
+
+
+def _overlap_cycle(tmp_path, offset):
+    params = kane.random_params(20251)
+    robot_path = kane.write_description(params, tmp_path)
+    doc = {"cycle": {"name": "overlap", "robot": robot_path.name, "cycles_per_hour": 10.0,
+                     "sample_rate": 100.0, "arm_start": Q0},
+           "segment": [{"kind": "straight", "distance": 4.0, "speed": 1.0, "acceleration": 1.0},
+                       {"kind": "arm", "to": Q1, "duration": 2.0, "offset": offset}]}
+    duty = opspace.load_duty_cycle(write_toml(tmp_path / "cycle.toml", doc))
+    robot = opspace.load_robot(robot_path)
+    return params, robot, evaluate_cycle(robot, duty)
+
+
+def test_arm_swing_during_a_straight_matches_kane(tmp_path):
+    # The base cruises at 1 m/s from t = 1 s to 4 s; the arm swings from
+    # t = 1.2 s to 3.2 s, inside the straight (one segment, not after it).
+    params, robot, ev = _overlap_cycle(tmp_path, 1.2)
+    assert ev.duration == pytest.approx(5.0, abs=1e-9)       # 1 + 3 + 1 s, not 7 s
+    during = (ev.t > 1.2 + 1e-9) & (ev.t < 3.2 - 1e-9)
+    assert during.sum() > 150 and np.all(ev.segment == 0)
+    np.testing.assert_allclose(ev.v[during], 1.0, atol=1e-12)
+    np.testing.assert_allclose(ev.a[during], 0.0, atol=1e-12)
+    # minimum jerk: peak joint speed 15 Δq / (8 T) at mid-move (t = 2.2 s)
+    k = int(np.argmin(np.abs(ev.t - 2.2)))
+    np.testing.assert_allclose(ev.nu[k, 2:], 15 * (np.array(Q1) - Q0) / 16, rtol=1e-9)
+    checked = 0
+    for k in np.flatnonzero(during)[::20]:
+        q_arm = robot.arm_positions(ev.qs[k])
+        M, c, g = kane.reference_terms(params, 0.0, q_arm, ev.nu[k])
+        Q_ref = M @ ev.nu_dot[k] + c + g
+        scale = max(1.0, float(np.abs(Q_ref).max()))
+        np.testing.assert_allclose(ev.Q[k], Q_ref, rtol=1e-9, atol=1e-9 * scale)
+        checked += 1
+    assert checked >= 8
+    # the arm's swing shows in the wheel torques (the check is not of a still arm)
+    still = opspace.inverse_dynamics(robot, ev.qs[k], np.r_[ev.nu[k, :2], 0, 0, 0],
+                                     np.zeros(5))
+    assert np.abs(ev.Q[k, :2] - still[:2]).max() > 1e-3
+
+
+def test_offset_needs_a_base_segment_before(tmp_path):
+    params = kane.random_params(20251)
+    kane.write_description(params, tmp_path)
+    doc = {"cycle": {"name": "x", "robot": "robot.toml", "cycles_per_hour": 1.0},
+           "segment": [{"kind": "arm", "to": Q1, "duration": 2.0, "offset": 0.5}]}
+    with pytest.raises(opspace.ConfigError, match=r"segment\]\] 1 \(arm\) offset"):
+        opspace.load_duty_cycle(write_toml(tmp_path / "c.toml", doc))
