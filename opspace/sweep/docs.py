@@ -43,7 +43,8 @@ class Documents:
 
     docs: root ("robot", "cycle", "catalogue") -> dict, the catalogue None
     when the duty cycle names none; names: root -> the base file's name;
-    urdf_name, urdf_text: the arm URDF; urdf_digest: SHA-256 of its text.
+    urdf_name, urdf_text: the arm URDF; urdf_digest: SHA-256 of its text;
+    urdf_path: where it was read (meshes for drawings are found from there).
     """
 
     docs: dict
@@ -51,6 +52,7 @@ class Documents:
     urdf_name: str
     urdf_text: str
     urdf_digest: str
+    urdf_path: Path | None = None
 
     def key(self, root, doc):
         """Cache key of an effective document (the robot's includes its URDF)."""
@@ -90,7 +92,8 @@ def read_documents(duty_path, *, where):
                      names={"robot": robot_path.name, "cycle": duty_path.name,
                             "catalogue": cat_name},
                      urdf_name=urdf_path.name, urdf_text=urdf_text,
-                     urdf_digest=hashlib.sha256(urdf_text.encode("utf-8")).hexdigest())
+                     urdf_digest=hashlib.sha256(urdf_text.encode("utf-8")).hexdigest(),
+                     urdf_path=urdf_path)
 
 
 # ------------------------------------------------------------------ editing
