@@ -23,6 +23,8 @@ Keys (SI units; every key is documented in the README's reference section)::
     [arm_joint.<urdf joint>] coulomb, viscous, rotor_inertia = 0, gear_ratio = 1
     [poses]  <name> = [arm joint values]
     [[caster]] position = [x, y]
+    [[contact_point]] name, frame | outline, offset, region, area, direction
+                      (see `description.contact`)
 """
 
 from __future__ import annotations
@@ -36,6 +38,7 @@ import numpy as np
 from ..errors import ConfigError
 from ._toml import Section, check_inertia, read_document
 from ._urdf import Mimic, check_inertials, parse_xml, read_mimic
+from .contact import read_contact_points
 
 __all__ = [
     "ArmJointDrive",
@@ -150,13 +153,14 @@ class RobotDescription:
     poses: dict = field(default_factory=dict)
     arm_model: object = None  # pinocchio.Model of the arm alone (fixed base)
     mimic: dict = field(default_factory=dict)  # follower joint -> Mimic of an independent one
+    contact_points: tuple = ()  # ContactPointSpec, for the contact pre-check
 
 
 # ---------------------------------------------------------------------------
 # the description
 # ---------------------------------------------------------------------------
 TOP_LEVEL = ("robot", "base", "wheel", "drive", "mount", "ground", "payload",
-             "arm_joint", "poses", "caster")
+             "arm_joint", "poses", "caster", "contact_point")
 
 
 def load_description(path, *, doc=None, urdf_text=None):
@@ -209,12 +213,32 @@ def load_description(path, *, doc=None, urdf_text=None):
     _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
     arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
     poses = _read_poses(path, doc.get("poses", {}), arm_model, mimic)
+    contact_points = read_contact_points(path, doc.get("contact_point", []))
+    _check_contact_points(path, contact_points, arm_model, base)
 
     return RobotDescription(
         path=path, name=robot_name, arm_urdf=arm_urdf, tool_frame=tool_frame,
         base=base, wheel=wheel, drive=drive, mount_xyz=mount_xyz,
         mount_rpy=mount_rpy, casters=casters, ground_friction=friction,
-        payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic)
+        payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic,
+        contact_points=contact_points)
+
+
+def _check_contact_points(path, points, arm, base):
+    """Each contact point names a frame of the arm (or the base) or, with an
+    outline point, the base has a footprint."""
+    for i, p in enumerate(points):
+        where = f"{path.name}: [[contact_point]] {i + 1} {p.name!r}"
+        if p.outline is not None and base.footprint is None:
+            raise ConfigError(f"{where} outline = {p.outline!r} needs [base] footprint")
+        if p.outline is None and p.frame not in _BASE_FRAMES and not arm.existFrame(p.frame):
+            names = ", ".join(f.name for f in arm.frames if f.name != "universe")
+            raise ConfigError(f"{where} frame = {p.frame!r} is not a link or frame of the arm "
+                              f"URDF (known: base, {names})")
+
+
+#: frames the base model adds to the arm's (model.MobileManipulator)
+_BASE_FRAMES = ("base", "wheel_right", "wheel_left")
 
 
 def _read_base(s):

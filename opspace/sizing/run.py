@@ -84,6 +84,9 @@ class SizingResult:
     (straight-line equivalent, rotor excluded); instants, worst_torque,
     worst_tip, worst_traction, stop: the worst-case search; status "pass" /
     "fail" / "no catalogue" and message.
+    contact: the contact pre-check along the cycle (`opspace.contact.ContactCheck`)
+    when the description lists contact points, else None (it has its own status
+    and does not enter the drive verdict).
     """
 
     duty: DutyCycle
@@ -108,6 +111,7 @@ class SizingResult:
     envelope_criteria: tuple | None = None
     envelope_sweeps: tuple | None = None
     cases: tuple = ()
+    contact: object = None
 
     @property
     def worst(self):
@@ -274,6 +278,8 @@ def size(duty, *, robot=None, catalogue=None, search=True, basis=None, progress=
         env_criteria = merge_criteria([(None, extra)] + [(c.label, c.robot_criteria)
                                                          for c in cases])
         env_sweeps = merge_sweeps(sweeps, cases)
+    contact = _contact_check(robot, ev, search)
+    note("contact pre-check", 1, 1)
     in_effect = "envelope" if basis == "envelope" and search else "cycle"
     result = SizingResult(
         duty=duty, robot=robot, evaluation=ev, wheel_duty=wd, described=described,
@@ -282,11 +288,22 @@ def size(duty, *, robot=None, catalogue=None, search=True, basis=None, progress=
         instants=instants, worst_torque=worst[0], worst_tip=worst[1], worst_traction=worst[2],
         stop=stop, status="", message="", catalogue=catalogue, basis=in_effect,
         cycle_criteria=extra, cycle_sweeps=sweeps, envelope_criteria=env_criteria,
-        envelope_sweeps=env_sweeps, cases=cases)
+        envelope_sweeps=env_sweeps, cases=cases, contact=contact)
     status, message = _verdict(result, asked=basis)
     object.__setattr__(result, "status", status)
     object.__setattr__(result, "message", message)
     return result
+
+
+def _contact_check(robot, ev, search):
+    """The contact pre-check along the cycle (rated payload where it is held), or None."""
+    if not robot.description.contact_points:
+        return None
+    from ..contact import check_contacts
+
+    return check_contacts(robot, heaviest=search,
+                          motion={"qs": ev.qs, "nu": ev.nu, "t": ev.t, "payload_flags": ev.payload,
+                                  "payload": robot.description.payload})
 
 
 FIXES = {"traction": "lower the accelerations and decelerations, put more of the weight on "
