@@ -71,3 +71,38 @@ def test_offset_needs_a_base_segment_before(tmp_path):
            "segment": [{"kind": "arm", "to": Q1, "duration": 2.0, "offset": 0.5}]}
     with pytest.raises(opspace.ConfigError, match=r"segment\]\] 1 \(arm\) offset"):
         opspace.load_duty_cycle(write_toml(tmp_path / "c.toml", doc))
+
+
+# ------------------------------------------------------------------ blended segments
+
+def test_blended_straights_keep_the_speed(tmp_path):
+    # Kinematics by hand (trapezoid, Biagiotti & Melchiorri 2008, sec. 3.2):
+    # flat straight 3 m at 1 m/s, 0.5 m/s², blending onto a 5 % ramp of 2 m at
+    # 1 m/s: 2 s up to speed (1 m), 2 s cruise; then 1 s cruise, 2 s braking
+    # (1 m): 7 s in all, at 1 m/s across the join (9 s with a stop between).
+    params = kane.random_params(20251)
+    robot_path = kane.write_description(params, tmp_path)
+    doc = {"cycle": {"name": "blend", "robot": robot_path.name, "cycles_per_hour": 10.0,
+                     "sample_rate": 100.0},
+           "segment": [{"kind": "straight", "distance": 3.0, "speed": 1.0, "acceleration": 0.5},
+                       {"kind": "straight", "distance": 2.0, "speed": 1.0, "acceleration": 0.5,
+                        "grade": 0.05, "blend": True}]}
+    duty = opspace.load_duty_cycle(write_toml(tmp_path / "cycle.toml", doc))
+    ev = evaluate_cycle(opspace.load_robot(robot_path), duty)
+    assert ev.duration == pytest.approx(7.0, abs=1e-9)
+    k = int(np.argmin(np.abs(ev.t - 4.0)))
+    assert ev.segment[k] == 1 and ev.segment[k - 1] == 0
+    np.testing.assert_allclose(ev.v[k - 5:k + 5], 1.0, atol=1e-12)    # through the join
+    assert np.max(np.abs(np.diff(ev.v))) <= 0.5 * 0.01 + 1e-12         # |Δv| <= a dt
+    assert ev.grade[k - 1] == 0.0 and ev.grade[k] == 0.05
+
+
+def test_blend_needs_a_moving_segment_before(tmp_path):
+    params = kane.random_params(20251)
+    kane.write_description(params, tmp_path)
+    doc = {"cycle": {"name": "x", "robot": "robot.toml", "cycles_per_hour": 1.0},
+           "segment": [{"kind": "turn", "angle": 1.0, "rate": 1.0, "acceleration": 1.0},
+                       {"kind": "straight", "distance": 1.0, "speed": 0.5, "acceleration": 0.5,
+                        "blend": True}]}
+    with pytest.raises(opspace.ConfigError, match=r"segment\]\] 2 \(straight\) blend.*a turn"):
+        opspace.load_duty_cycle(write_toml(tmp_path / "c.toml", doc))

@@ -28,7 +28,10 @@ during the segment, default false; `label` is free text):
 straight   distance (m, signed: < 0 reverses), speed (m/s), acceleration,
            deceleration (m/s², default = acceleration), jerk (m/s³, optional:
            S-curve; then deceleration must equal acceleration), grade
-           (rise/run along the robot's forward axis, nose up > 0; default 0)
+           (rise/run along the robot's forward axis, nose up > 0; default 0),
+           blend (default false: true carries the speed over from the straight
+           or arc before, which then does not stop: the two meet at the lower
+           of their speeds)
 arc        radius (m, signed: > 0 turns left), angle (rad travelled, > 0),
            speed, acceleration, deceleration, jerk as for straight
 turn       angle (rad, signed: > 0 turns left, on the spot), rate (rad/s),
@@ -125,6 +128,7 @@ def load_duty_cycle(path, *, robot=None, doc=None):
         raise ConfigError(f"{path.name}: the cycle has no [[segment]]: at least one is needed")
     segments = tuple(_read_segment(path, i, e) for i, e in enumerate(entries))
     _check_overlaps(path, segments)
+    _check_blends(path, segments)
     duty = DutyCycle(path=path, name=name, robot_path=(path.parent / robot_rel).resolve(),
                      catalogue_path=(path.parent / catalogue_rel).resolve() if catalogue_rel else None,
                      cycles_per_hour=cph, sample_rate=rate, service_factor=sf,
@@ -175,6 +179,38 @@ def _check_overlaps(path, segments):
                               f"{str(seg.payload).lower()}")
 
 
+BLENDING = ("straight", "arc")
+
+
+def blend_speed(prev, seg):
+    """The speed at which `seg` (blend = true) takes over from `prev`, m/s,
+    signed along the motion: the lower of their two speeds."""
+    sign = -1.0 if prev.kind == "straight" and prev.values["distance"] < 0 else 1.0
+    return sign * min(prev.values["speed"], seg.values["speed"])
+
+
+def _check_blends(path, segments):
+    """A segment with `blend = true` follows a straight or an arc, moving the
+    same way, without jerk limits on either."""
+    for seg in segments:
+        if not seg.values.get("blend"):
+            continue
+        where = f"{path.name}: [[segment]] {seg.index + 1} ({seg.kind}) blend"
+        prev = segments[seg.index - 1] if seg.index > 0 else None
+        if prev is None or prev.kind not in BLENDING:
+            raise ConfigError(f"{where} = true: it must follow a straight or an arc (the speed "
+                              f"is carried over from it), got "
+                              f"{'nothing' if prev is None else 'a ' + prev.kind}")
+        back = lambda g: g.kind == "straight" and g.values["distance"] < 0  # noqa: E731
+        if back(prev) != back(seg):
+            raise ConfigError(f"{where} = true: segment {prev.index + 1} and this one move in "
+                              f"opposite directions; the base must stop between them")
+        for g in (prev, seg):
+            if "jerk" in g.values:
+                raise ConfigError(f"{where} = true: segment {g.index + 1} has a jerk limit "
+                                  f"(S-curves start and end at rest); drop it to blend")
+
+
 def _nonzero(s, key, unit):
     value = s.number(key, unit=unit)
     if value == 0.0:
@@ -197,13 +233,21 @@ def _linear_limits(s, rate_unit="m/s", acc_unit="m/s²", jerk_unit="m/s³", spee
     return out
 
 
+def _blend(s):
+    blend = s.raw("blend", False, required=False)
+    if not isinstance(blend, bool):
+        s.fail("blend", f"must be true or false, got {blend!r}")
+    return {"blend": blend}
+
+
 def _straight(s):
-    return {"distance": _nonzero(s, "distance", "m"), **_linear_limits(s)}
+    return {"distance": _nonzero(s, "distance", "m"), **_linear_limits(s), **_blend(s)}
 
 
 def _arc(s):
     return {"radius": _nonzero(s, "radius", "m"),
-            "angle": s.number("angle", unit="rad", lo=0.0, lo_open=True), **_linear_limits(s)}
+            "angle": s.number("angle", unit="rad", lo=0.0, lo_open=True), **_linear_limits(s),
+            **_blend(s)}
 
 
 def _turn(s):

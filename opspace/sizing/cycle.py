@@ -31,7 +31,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from .. import trajectory as tr
-from ..description.duty import resolve_pose
+from ..description.duty import blend_speed, resolve_pose
 from ..dynamics.joint_space import inverse_dynamics_batch
 from ..errors import ConfigError
 from ..stability import stability_track, tyre_forces
@@ -58,7 +58,8 @@ def build_timeline(duty, robot):
     the segment before it, whose index it takes)."""
     q_arm = start_pose(duty, robot)
     pieces, owner = [], []
-    for seg in duty.segments:
+    segs = duty.segments
+    for seg in segs:
         if seg.kind == "arm":
             move, q_arm = _move(seg, robot, duty, q_arm)
             if seg.values.get("offset") is not None:
@@ -67,9 +68,20 @@ def build_timeline(duty, robot):
                 continue
             pieces.append(tr.Piece(arm=move))
         else:
-            pieces.append(tr.base_piece(seg.kind, seg.values))
+            nxt = segs[seg.index + 1] if seg.index + 1 < len(segs) else None
+            v0 = blend_speed(segs[seg.index - 1], seg) if seg.values.get("blend") else 0.0
+            v1 = blend_speed(seg, nxt) if nxt is not None and nxt.values.get("blend") else 0.0
+            try:
+                pieces.append(tr.base_piece(seg.kind, seg.values, v_start=v0, v_end=v1))
+            except ValueError as exc:
+                raise ConfigError(f"{duty.path.name}: {seg.title}: {exc}") from None
         owner.append(seg.index)
-    return tr.Timeline(pieces, q_start=start_pose(duty, robot)), np.array(owner)
+    try:
+        return tr.Timeline(pieces, q_start=start_pose(duty, robot)), np.array(owner)
+    except ValueError as exc:
+        raise ConfigError(f"{duty.path.name}: the segments do not join: {exc} (a blend needs "
+                          f"the same yaw rate on both sides: straight to straight, or arcs "
+                          f"of one radius)") from None
 
 
 @dataclass(frozen=True, eq=False)
