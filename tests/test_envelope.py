@@ -243,3 +243,30 @@ def test_back_driven_gearbox_counts_efficiency_once(tmp_path):
         np.testing.assert_allclose(ev.tau_out[k], [tau_out, tau_out], rtol=1e-9, atol=1e-9)
         T_m = tau_out * eta / G if tau_out < 0 else tau_out / (G * eta)
         np.testing.assert_allclose(res.described.torque[k], [T_m, T_m], rtol=1e-9, atol=1e-12)
+
+
+def test_simulation_flags_speed_and_effort_limits():
+    # Arithmetic on a hand-made run: coordinate "elbow" (limit 2 rad/s) reaches
+    # 2.5 rad/s first at t = 0.3 s; "shoulder" demands 12 N·m against 10 N·m
+    # first at t = 0.2 s; nothing else passes its limit.
+    from opspace.simulate import SimulationResult
+    t = np.arange(6) * 0.1
+    n, nv = len(t), 4
+    nu, Qd = np.zeros((n, nv)), np.zeros((n, nv))
+    nu[3:, 3] = [2.5, 2.1, 1.0]
+    Qd[2:4, 2] = [12.0, -11.0]
+    res = SimulationResult(
+        t=t, q=np.zeros((n, 7)), nu=nu, nu_dot=np.zeros((n, nv)), Q=np.clip(Qd, -10, 10),
+        Q_demand=Qd, saturated=np.abs(Qd) > 10, payload=np.zeros(n, bool),
+        tool_position=np.zeros((n, 3)), tool_rotation=np.tile(np.eye(3), (n, 1, 1)),
+        target_position=np.zeros((n, 3)), error=np.zeros((n, 3)), status="completed",
+        message="", dt=0.1, control_period=0.1, integrator="rk4",
+        coordinate_names=("wheel_right", "wheel_left", "shoulder", "elbow"),
+        effort_limit=np.array([5.0, 5.0, 10.0, 10.0]),
+        extra={"velocity_limit": np.array([np.inf, np.inf, 3.0, 2.0])})
+    flags = res.summary()["limit_flags"]
+    assert [(f["coordinate"], f["kind"]) for f in flags] == [("elbow", "speed"),
+                                                             ("shoulder", "effort")]
+    assert flags[0]["peak"]["value"] == 2.5 and flags[0]["first_t"]["value"] == pytest.approx(0.3)
+    assert flags[1]["peak"] == {"value": 12.0, "unit": "N·m"}
+    assert flags[1]["first_t"]["value"] == pytest.approx(0.2)

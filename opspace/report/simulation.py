@@ -57,6 +57,10 @@ def simulation_text(run, result, *, compare=None):
                          f"{c['peak']['value'] * 1e3:.2f} mm")
     sat = [n for n, v in s["efforts"].items() if v["saturated_share"]["value"] > 0]
     lines.append("effort limits reached by: " + (", ".join(sat) if sat else "none"))
+    for f in s["limit_flags"]:
+        lines.append(f"LIMIT PASSED: {f['coordinate']} {f['kind']} {f['peak']['value']:.3g} "
+                     f"{f['peak']['unit']} > {f['limit']['value']:.3g} {f['limit']['unit']} "
+                     f"(first at t = {f['first_t']['value']:.2f} s)")
     if "min_tip_over_margin" in s:
         lines.append(f"least tip-over margin {s['min_tip_over_margin']['value'] * 1e3:.0f} mm; "
                      f"largest traction use {s['max_traction_use']['value']:.2f} (slip at 1)")

@@ -358,7 +358,8 @@ class _Recorder:
             tool_rotation=rot, target_position=self.target[sl].copy(), error=err, status=status,
             message=message, dt=dt, control_period=control_period, integrator=integrator,
             coordinate_names=tuple(robot.coordinate_names), effort_limit=robot.effort_limit.copy(),
-            stability=track, extra={"prismatic": prismatic, "loop": loop})
+            stability=track, extra={"prismatic": prismatic, "loop": loop,
+                                    "velocity_limit": robot.velocity_limit.copy()})
 
 
 def _stability(robot, qs, nus, nu_dots, Qs, payload, end_payload):
