@@ -181,9 +181,22 @@ def _robot_criteria(robot, ev):
     margin = d / d_static if d_static > 0 else -1.0
     tip = Criterion(name="tip-over", value=d, limit=0.0, unit="m", margin=margin,
                     passed=bool(d >= 0.0 and st.loads.supported.all()),
-                    note=f"ZMP {d * 1000:.0f} mm inside edge {int(st.edge[j])} at {where(j)}; "
+                    note=f"ZMP {d * 1000:.0f} mm inside edge {edge_name(robot, st.polygon, st.edge[j])} "
+                         f"at {where(j)}; "
                          f"static {d_static * 1000:.0f} mm")
     return (traction, tip) + _arm_rows(robot, ev, where)
+
+
+def edge_name(robot, polygon, i):
+    """A support-polygon edge named by the contacts at its ends, as the figures
+    name them: "caster_1–wheel_left"."""
+    V = polygon.vertices
+    ends = (V[int(i)], V[(int(i) + 1) % len(V)])
+    names = []
+    for p in ends:
+        k = int(np.argmin([np.hypot(*(np.asarray(c.position) - p)) for c in robot.contacts]))
+        names.append(robot.contacts[k].name)
+    return "–".join(names)
 
 
 def _arm_rows(robot, ev, where):
