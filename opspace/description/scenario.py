@@ -12,6 +12,8 @@
     integrator = "rk4"           # rk4 | euler
     friction = true              # Coulomb, viscous, rolling resistance in the plant
     arm_start = "carry"          # a [poses] name or joint values (default zeros)
+    tracking_rms = 0.005         # m, target for the tool position error's RMS (optional)
+    tracking_peak = 0.015        # m, target for its peak (optional)
 
     [controller]
     mode = "arm_only"            # arm_only (wheels follow the base plan) | whole_body
@@ -106,6 +108,8 @@ class Scenario:
     release: float | None
     pick_tolerance: float
     extra: dict = field(default_factory=dict)
+    tracking_rms: float | None = None
+    tracking_peak: float | None = None
 
 
 def _bool(s, key, default):
@@ -153,6 +157,8 @@ def load_scenario(path):
         s.fail("integrator", f"must be rk4 or euler, got {integrator!r}")
     friction = _bool(s, "friction", True)
     arm_start = s.raw("arm_start", required=False)
+    tracking = {k: s.number(f"tracking_{k}", unit="m", lo=0.0, lo_open=True, required=False)
+                for k in ("rms", "peak")}
     s.finish()
 
     s = Section(path, "controller", doc.get("controller", {}))
@@ -226,7 +232,8 @@ def load_scenario(path):
                     duration=duration, step=step, control_period=1.0 / rate,
                     integrator=integrator, friction=friction, arm_start=arm_start,
                     controller=controller, base=base, waypoints=waypoints, payload=payload,
-                    payload_position=position, pick=pick, release=release, pick_tolerance=tol)
+                    payload_position=position, pick=pick, release=release, pick_tolerance=tol,
+                    tracking_rms=tracking["rms"], tracking_peak=tracking["peak"])
 
 
 def _read_base_piece(path, i, entry):
