@@ -34,3 +34,21 @@ def test_check_names_its_quantities():
     for words in ("straight-line mass per wheel", "yaw inertia of the whole robot about the pivot",
                   "2x2 wheel inertia matrix"):
         assert words in out
+
+
+def test_tracking_targets_come_from_the_scenario(tmp_path):
+    from dataclasses import replace
+
+    from opspace.description.scenario import load_scenario
+    from opspace.report.simulation import tracking_targets
+    from conftest import DEMO
+    sc = load_scenario(DEMO.with_name("pick.toml"))
+    assert (sc.tracking_rms, sc.tracking_peak) == (0.005, 0.015)
+    assert tracking_targets(sc) == {"5 mm RMS target": 0.005, "15 mm peak target": 0.015}
+    assert tracking_targets(replace(sc, tracking_rms=None, tracking_peak=None)) == {}
+    text = DEMO.with_name("pick.toml").read_text().replace("tracking_rms = 0.005", "tracking_rms = -1")
+    bad = tmp_path / "pick.toml"
+    bad.write_text(text.replace('robot = "robot.toml"', f'robot = "{DEMO.as_posix()}"'))
+    import pytest
+    with pytest.raises(opspace.ConfigError, match="tracking_rms"):
+        load_scenario(bad)
