@@ -185,6 +185,13 @@ def _output_dir(path):
 
 
 # ---------------------------------------------------------------- opspace sweep
+def _with_unit(value, unit):
+    """A figure for the console: 4 significant digits and its unit (none when
+    dimensionless)."""
+    text = f"{value:.4g}" if isinstance(value, (int, float)) else str(value)
+    return text + (f" {unit}" if unit and unit != "1" else "")
+
+
 def _cmd_sweep(args):
     from .sweep import load_sweep, progress_bar, run_sweep
 
@@ -201,12 +208,13 @@ def _cmd_sweep(args):
           f"{result.wall_time:.1f} s, {result.reused} reused, {result.retried} resubmitted)")
     x, y = sweep.pareto[0], sweep.pareto[2]
     by_id = {r.id: r for r in result.records}
+    units = {p.key: p.unit for p in sweep.parameters}
     for i in result.pareto[:5]:
         r = by_id[i]
-        values = ", ".join(f"{k} = {v:g}" if isinstance(v, float) else f"{k} = {v}"
-                           for k, v in r.values.items())
-        print(f"  on the front: {values}: {x} = {r.figures.get(x):.4g}, "
-              f"{y} = {r.figures.get(y):.4g}")
+        values = ", ".join(f"{k} = {_with_unit(v, units.get(k))}" if isinstance(v, float)
+                           else f"{k} = {v}" for k, v in r.values.items())
+        print(f"  on the front: {values}: {x} = {_with_unit(r.figures.get(x), result.units.get(x))}"
+              f", {y} = {_with_unit(r.figures.get(y), result.units.get(y))}")
     print(f"results: {result.paths['csv']}; page: {result.paths['html']}")
     print("Model estimates: apply service factors, verify on hardware, follow the applicable "
           "safety standards.")

@@ -29,7 +29,8 @@ h1 { font-size: 1.6em; margin-bottom: 0.2em; } h2 { border-bottom: 1px solid #cc
 .verdict.info { background: #eeeff2; border-color: #59606b; }
 .caution { background: #f8f1de; border-left: 7px solid #8c6a12; padding: 0.6em 1em;
            font-size: 0.92em; }
-table { border-collapse: collapse; margin: 0.6em 0 1.2em; font-size: 0.88em; }
+.tablewrap { max-width: 100%; overflow-x: auto; margin: 0.6em 0 1.2em; }
+table { border-collapse: collapse; font-size: 0.88em; }
 th, td { border: 1px solid #ddd; padding: 0.25em 0.55em; text-align: right; }
 th { background: #f5f5f5; } td.l, th.l { text-align: left; }
 td.ok { background: #e4eff6; } td.bad { background: #fbe8d9; font-weight: 600; }
@@ -103,8 +104,8 @@ class Page:
                 c = f' class="{" ".join(cls)}"' if cls else ""
                 cells.append(f"<td{c}>{html.escape(str(cell))}</td>")
             body.append("<tr>" + "".join(cells) + "</tr>")
-        self.parts.append(f"<table><thead><tr>{th}</tr></thead><tbody>{''.join(body)}"
-                          f"</tbody></table>")
+        self.parts.append(f'<div class="tablewrap"><table><thead><tr>{th}</tr></thead>'
+                          f"<tbody>{''.join(body)}</tbody></table></div>")
 
     def figure(self, image, caption, mime="image/png"):
         """An embedded image (bytes; PNG, or mime="image/gif" for an animation)."""

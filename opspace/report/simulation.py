@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from ._views import simulation_view
-from .sizing import CAUTIONS, _finite
+from .sizing import RUN_CAUTIONS as CAUTIONS, _finite
 
 __all__ = ["SIMULATION_ASSUMPTIONS", "simulation_html", "simulation_text",
            "write_simulation_outputs"]

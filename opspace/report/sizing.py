@@ -11,7 +11,7 @@ from ._views import sizing_view
 from .html import Page, fmt
 from .text import losses as _losses
 
-__all__ = ["ASSUMPTIONS", "CAUTIONS", "sizing_html", "sizing_summary", "write_sizing_report",
+__all__ = ["ASSUMPTIONS", "CAUTIONS", "RUN_CAUTIONS", "sizing_html", "sizing_summary", "write_sizing_report",
            "write_timeseries_csv"]
 
 
@@ -30,16 +30,26 @@ ASSUMPTIONS = (
     "The gyroscopic reaction of the motor rotors on the chassis is neglected.",
 )
 
+RUN_CAUTIONS = (
+    "These figures are model estimates, not measurements.",
+    "Apply service factors suited to the application.",
+    "Verify efforts, tracking, traction and stability on the real hardware before relying "
+    "on them.",
+    "Follow the applicable safety standards for mobile robots and manipulators, local "
+    "codes and licensed engineering practice; tip-over, traction and stopping figures must "
+    "never be the only basis of a safety decision.",
+)
+"""The cautions of a simulated run (no duty cycle, no service factor of its own)."""
+
 CAUTIONS = (
     "These figures are model estimates, not measurements.",
     "Apply service factors suited to the application; the cycle's service factor "
     "multiplies required torques only.",
     "Verify torques, temperatures, traction, stopping distances and stability on the "
     "real hardware before relying on them.",
-    "Follow the applicable safety standards for mobile robots and manipulators, local "
-    "codes and licensed engineering practice; tip-over, traction and stopping figures must "
-    "never be the only basis of a safety decision.",
+    RUN_CAUTIONS[-1],
 )
+"""The cautions of a sizing (and of a sweep of sizings)."""
 
 
 def _q(value, unit):
