@@ -270,3 +270,22 @@ def test_simulation_flags_speed_and_effort_limits():
     assert flags[0]["peak"]["value"] == 2.5 and flags[0]["first_t"]["value"] == pytest.approx(0.3)
     assert flags[1]["peak"] == {"value": 12.0, "unit": "N·m"}
     assert flags[1]["first_t"]["value"] == pytest.approx(0.2)
+
+
+def test_clearance_uses_the_urdf_collision_shapes(tmp_path):
+    # A sphere of radius 0.1 m around the tool point (link 2, 0.4 m out): with
+    # the shoulder at q1 = asin(−0.35 / 0.9) the tool point is 0.05 m above the
+    # floor (mount at 0.4 m, reach 0.9 m), the sphere 0.05 m into it (geometry).
+    text = planar_arm(lim1=(-3.0, 3.0), lim2=(-3.0, 3.0)).replace(
+        '<link name="link2">', '<link name="link2"><collision><origin xyz="0.4 0 0"/>'
+        '<geometry><sphere radius="0.1"/></geometry></collision>')
+    robot = make_robot(tmp_path, text, rect_robot_doc())
+    from opspace.sizing.worst_case import arm_geometry
+    geometry = arm_geometry(robot)
+    assert len(geometry.shapes) == 1 and "1 URDF collision shapes" in geometry.used
+    q1 = math.asin(-0.35 / 0.9)
+    np.testing.assert_allclose(clearance(robot, np.array([[q1, 0.0]])), [0.05], atol=1e-9)
+    bare = make_robot(tmp_path / "bare", planar_arm(lim1=(-3.0, 3.0), lim2=(-3.0, 3.0)),
+                      rect_robot_doc()) if (tmp_path / "bare").mkdir() is None else None
+    assert clearance(bare, np.array([[q1, 0.0]]))[0] == 0.0
+    assert "no usable URDF collision shapes" in arm_geometry(bare).used

@@ -491,10 +491,9 @@ def sizing_html(result, *, progress=None):
         page.table(["objective", "refined", "best grid point", "pose (rad or m)", "instant"], rows,
                    left=(0, 3, 4))
         wp = result.worst_torque
-        page.para(f"Only physical poses are searched: {wp.excluded} grid poses with a moving "
-                  f"joint origin or the tool below the floor or inside the chassis footprint box "
-                  f"were left out (link origins and tool point checked; collision geometry is "
-                  f"not used).")
+        page.para(f"Only physical poses are searched: {wp.excluded} grid poses reaching below "
+                  f"the floor or into the chassis footprint box were left out, checked on "
+                  f"{wp.geometry}.")
         page.figure(*next(fig_iter))
         s = result.stop
         page.para(f"Shortest stop from {s.speed:g} m/s with the arm in the least-margin pose and "

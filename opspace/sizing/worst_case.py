@@ -16,8 +16,10 @@ joint limits:
 Only physical poses count: a pose whose link origins (URDF joint origins that
 move with the arm) or tool point lie below the floor (z < 0 in the base frame)
 or inside the chassis volume (`footprint` box, 1 mm inside its faces) is left
-out (`clearance`; the arm's collision geometry is not used).  The excluded
-count is reported.
+out (`clearance`): checked on the moving joint origins, the tool point and
+the corners and rim points of the URDF's <collision> boxes, cylinders and
+spheres where given (meshes are not loaded); `WorstPose.geometry` says which.
+The excluded count is reported.
 
 Each search is a coarse grid (batch inverse dynamics for 1 and 3; for 2 the
 arm-locked robot as one rigid body, below), then a global refinement on the
@@ -61,8 +63,8 @@ from ..dynamics.joint_space import inverse_dynamics_batch
 from ..errors import ModelError
 from ..stability import ground_wrench, stability_track, tyre_forces
 
-__all__ = ["Instant", "StopFigures", "WorstPose", "clearance", "critical_instants",
-           "shortest_stop", "worst_poses"]
+__all__ = ["ArmGeometry", "Instant", "StopFigures", "WorstPose", "arm_geometry", "clearance",
+           "critical_instants", "shortest_stop", "worst_poses"]
 
 
 @dataclass(frozen=True)
@@ -99,6 +101,7 @@ class WorstPose:
     grid_value: float
     evaluations: int
     excluded: int = 0
+    geometry: str = ""
 
     def to_dict(self, joint_names, units):
         return {"objective": self.objective, "pose": _pose_dict(joint_names, units, self.q),
@@ -106,7 +109,8 @@ class WorstPose:
                 "grid_value": {"value": self.grid_value, "unit": self.unit},
                 "instant": {"value": self.instant, "unit": "1"},
                 "evaluations": {"value": self.evaluations, "unit": "1"},
-                "excluded_poses": {"value": self.excluded, "unit": "1"}}
+                "excluded_poses": {"value": self.excluded, "unit": "1"},
+                "clearance_checked_on": self.geometry}
 
 
 def critical_instants(ev):
@@ -259,36 +263,104 @@ def _traction_batch(robot, poses, instants):
     return out
 
 
-def clearance(robot, poses, *, inset=1e-3):
+def clearance(robot, poses, *, inset=1e-3, geometry=None):
     """Depth (P,) m of each arm pose into the floor or the chassis; 0 = physical.
 
-    Checked points: the arm's joint origins that move with the arm (the mount
-    and the first joint's origin are fixed to the chassis) and the tool point,
-    in the base frame with the base on flat ground.  Floor: depth −z where
-    z < 0.  Chassis: the description's `footprint` box [x_min, x_max] ×
-    [y_min, y_max] × [0, height], shrunk by `inset` m on every face; the depth
-    of a point inside is its distance to the nearest face (none without a
-    footprint).  Returns the largest depth over the points.
+    Checked points (`geometry`, default `arm_geometry(robot)`): the arm's joint
+    origins that move with the arm (the mount and the first joint's origin are
+    fixed to the chassis), the tool point and, where the URDF gives them, the
+    corners and rim points of the <collision> boxes, cylinders and spheres of
+    the links that move with the arm; in the base frame with the base on flat
+    ground.  Floor: depth −z where z < 0 (a sphere: its lowest point).
+    Chassis: the description's `footprint` box [x_min, x_max] × [y_min, y_max]
+    × [0, height], shrunk by `inset` m on every face; the depth of a point
+    inside is its distance to the nearest face (none without a footprint).
+    Returns the largest depth over the points.
     """
+    geometry = arm_geometry(robot) if geometry is None else geometry
     fp = robot.description.base.footprint
     out = np.zeros(len(poses))
     for p, q in enumerate(robot.configurations(np.atleast_2d(poses))):
-        pts = robot.arm_points(q)[2:]
+        pts = robot.arm_points(q)[2:]          # also updates robot.data.oMf
+        low = []
+        for fid, local, radius in geometry.shapes:
+            X = robot.data.oMf[fid]
+            world = local @ X.rotation.T + X.translation
+            pts = np.vstack([pts, world])
+            if radius:
+                low.append(world[0, 2] - radius)  # a sphere's lowest point (row 0: centre)
         depth = np.maximum(-pts[:, 2], 0.0)
+        if low:
+            depth = np.append(depth, np.maximum(-np.array(low), 0.0))
         if fp is not None:
             x0, x1, y0, y1, h = fp
             faces = np.column_stack([pts[:, 0] - x0, x1 - pts[:, 0], pts[:, 1] - y0,
                                      y1 - pts[:, 1], h - pts[:, 2]]) - inset
             inside = np.all(faces > 0.0, axis=1) & (pts[:, 2] >= 0.0)
-            depth = np.maximum(depth, np.where(inside, faces.min(axis=1), 0.0))
+            depth = np.append(depth, np.where(inside, faces.min(axis=1), 0.0))
         out[p] = depth.max()
     return out
+
+
+@dataclass(frozen=True)
+class ArmGeometry:
+    """What `clearance` checks: shapes ((frame id, points (k, 3) in the link
+    frame, sphere radius or 0), ...) and `used`, in words."""
+
+    shapes: tuple
+    used: str
+
+
+def _shape_points(shape):
+    """Sample points of a URDF shape in its own frame (rows), and a sphere's radius."""
+    import itertools as it
+    if shape.kind == "box":
+        h = np.array(shape.size) / 2
+        return np.array(list(it.product(*[(-v, v) for v in h]))), 0.0
+    if shape.kind == "cylinder":
+        r, L = shape.size
+        a = np.linspace(0.0, 2 * np.pi, 12, endpoint=False)
+        rim = np.column_stack([r * np.cos(a), r * np.sin(a)])
+        return np.vstack([np.column_stack([rim, np.full(12, z)]) for z in (-L / 2, L / 2)]), 0.0
+    r = shape.size[0]
+    return np.vstack([np.zeros(3), r * np.eye(3), -r * np.eye(3)]), r
+
+
+def arm_geometry(robot):
+    """The collision geometry of the arm's moving links (boxes, cylinders,
+    spheres of the URDF's <collision> elements; meshes are not loaded), with
+    what was used in words."""
+    from ..description.visuals import read_shapes
+
+    d = robot.description
+    found = read_shapes(d.arm_urdf, sources=("collision",))
+    first_arm_joint = robot.model.getJointId(robot.arm_joint_names[0]) if robot.n_arm else 0
+    shapes, skipped = [], 0
+    for sh in found.shapes:
+        if sh.kind == "mesh" or not robot.model.existFrame(sh.link):
+            skipped += 1
+            continue
+        fid = robot.model.getFrameId(sh.link)
+        if robot.model.frames[fid].parentJoint < first_arm_joint:
+            continue                                     # fixed to the chassis
+        local, radius = _shape_points(sh)
+        X = pin.SE3(pin.rpy.rpyToMatrix(np.array(sh.rpy)), np.array(sh.xyz))
+        shapes.append((fid, local @ X.rotation.T + X.translation, radius))
+    used = "the moving joint origins and the tool point"
+    if shapes:
+        used += (f", and {len(shapes)} URDF collision shapes (box, cylinder, sphere) of the "
+                 f"moving links")
+    else:
+        used += " (no usable URDF collision shapes on the moving links)"
+    if skipped:
+        used += f"; {skipped} collision meshes or unknown links not used"
+    return ArmGeometry(tuple(shapes), used)
 
 
 PENALTY = 1e6   # objective of a non-physical pose (plus its depth, m), above any figure
 
 
-def _objective(robot, batch, sign):
+def _objective(robot, batch, sign, geometry=None):
     """sign × figure of poses (P, n) from the (P, K) `batch` reduced over the
     instants (max for sign −1, min for sign +1); PENALTY + depth for the
     non-physical poses (module docstring).  Takes x of shape (n,) or (n, S)
@@ -296,7 +368,7 @@ def _objective(robot, batch, sign):
     def f(x):
         x = np.asarray(x, dtype=float)
         poses = x[None] if x.ndim == 1 else x.T
-        depth = clearance(robot, poses)
+        depth = clearance(robot, poses, geometry=geometry)
         val = np.full(len(poses), PENALTY) + depth
         ok = depth == 0.0
         if ok.any():
@@ -363,7 +435,8 @@ def worst_poses(robot, instants, *, grid_budget=3000, max_evaluations=60, seeds=
     polygon = support_polygon(np.array([c.position for c in robot.contacts]))
     levels = _levels(robot, grid_budget)
     poses = np.array(list(itertools.product(*_grid_axes(robot, levels))))
-    ok = clearance(robot, poses) == 0.0
+    geometry = arm_geometry(robot)
+    ok = clearance(robot, poses, geometry=geometry) == 0.0
     if not ok.any():
         raise ModelError(f"{robot.name}: every arm pose of the search grid puts a joint origin or "
                          f"the tool below the floor or inside the chassis footprint")
@@ -387,12 +460,13 @@ def worst_poses(robot, instants, *, grid_budget=3000, max_evaluations=60, seeds=
     with _held(robot):
         for n, (name, unit, sign, grid, exact) in enumerate(searches):
             best = np.argsort(sign * grid())[:seeds]
-            x, f, count = _refine(_objective(robot, exact, sign), poses[best], lo, hi,
+            x, f, count = _refine(_objective(robot, exact, sign, geometry), poses[best], lo, hi,
                                   max_evaluations=max_evaluations, generations=generations)
             row = sign * exact(np.vstack([x, poses[best[0]]]))
             k = int(np.argmin(row[0]))
             found.append(WorstPose(name, x, sign * float(row[0, k]), unit, k,
-                                   sign * float(row[1].min()), len(poses) + count, excluded))
+                                   sign * float(row[1].min()), len(poses) + count, excluded,
+                                   geometry.used))
             tick(n + 1, len(searches))
     return tuple(found)
 
