@@ -106,3 +106,39 @@ def test_blend_needs_a_moving_segment_before(tmp_path):
                         "blend": True}]}
     with pytest.raises(opspace.ConfigError, match=r"segment\]\] 2 \(straight\) blend.*a turn"):
         opspace.load_duty_cycle(write_toml(tmp_path / "c.toml", doc))
+
+
+# ------------------------------------------------------------------ cross-slope
+
+def test_cross_slope_statics(tmp_path):
+    # Parked across a slope (left side up, rise/run c) and on a ramp: on the
+    # ground axes the vertical has the components (sin α, sin β,
+    # √(1 − sin²α − sin²β)), α = atan(grade), β = atan(c), and statics (Newton)
+    # give the ground force m g times that.  The wheel torques follow from
+    # virtual work (Goldstein, Classical Mechanics, 3rd ed. 2002, sec. 1.4):
+    # rolling straight, (Q_r + Q_l)/r = m g sin α; yawing about the pivot, the
+    # COM (x_c, y_c) moves by δψ (−y_c, x_c), so
+    # (Q_r − Q_l) b / r = −m g (sin α y_c − sin β x_c).
+    params = kane.random_params(20251)
+    robot_path = kane.write_description(params, tmp_path)
+    doc = {"cycle": {"name": "cross", "robot": robot_path.name, "cycles_per_hour": 10.0,
+                     "sample_rate": 50.0},
+           "segment": [{"kind": "dwell", "duration": 1.0, "cross_grade": 0.1},
+                       {"kind": "dwell", "duration": 1.0, "cross_grade": -0.2, "grade": 0.3}]}
+    duty = opspace.load_duty_cycle(write_toml(tmp_path / "cycle.toml", doc))
+    robot = opspace.load_robot(robot_path)
+    ev = evaluate_cycle(robot, duty)
+    m, g = robot.total_mass(), 9.80665
+    for seg, (a, c) in enumerate(((0.0, 0.1), (0.3, -0.2))):
+        sa, sb = np.sin(np.arctan(a)), np.sin(np.arctan(c))
+        k = np.flatnonzero(ev.segment == seg)[1]
+        expected = m * g * np.array([sa, sb, np.sqrt(1 - sa**2 - sb**2)])
+        np.testing.assert_allclose(ev.stability.wrench.force[k], expected, rtol=1e-9)
+        x_c, y_c = robot.com(ev.qs[k])[:2]
+        r, b = robot.wheel_radius, robot.half_track
+        total = m * g * sa * r
+        diff = -(r / b) * m * g * (sa * y_c - sb * x_c)
+        np.testing.assert_allclose(ev.Q[k, :2], [(total + diff) / 2, (total - diff) / 2],
+                                   rtol=1e-9, atol=1e-12)
+        assert ev.cross_grade[k] == c
+    assert robot.cross_slope == 0.0 and robot.slope == 0.0          # restored

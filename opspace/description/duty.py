@@ -29,6 +29,8 @@ straight   distance (m, signed: < 0 reverses), speed (m/s), acceleration,
            deceleration (m/s², default = acceleration), jerk (m/s³, optional:
            S-curve; then deceleration must equal acceleration), grade
            (rise/run along the robot's forward axis, nose up > 0; default 0),
+           cross_grade (rise/run along its left axis, left side up > 0;
+           default 0; also on stop and dwell),
            blend (default false: true carries the speed over from the straight
            or arc before, which then does not stop: the two meet at the lower
            of their speeds)
@@ -50,6 +52,7 @@ dwell      duration (s); grade (parked on a ramp)
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -75,6 +78,7 @@ class Segment:
     payload: bool
     grade: float
     values: dict
+    cross_grade: float = 0.0
 
     @property
     def title(self):
@@ -152,12 +156,17 @@ def _read_segment(path, i, entry):
     payload = s.raw("payload", False, required=False)
     if not isinstance(payload, bool):
         s.fail("payload", f"must be true or false, got {payload!r}")
-    grade = 0.0
+    grade = cross = 0.0
     if kind in ("straight", "stop", "dwell"):
         grade = s.number("grade", 0.0, lo=-1.0, hi=1.0)
+        cross = s.number("cross_grade", 0.0, lo=-1.0, hi=1.0)
+        if math.sin(math.atan(grade)) ** 2 + math.sin(math.atan(cross)) ** 2 >= 1.0:
+            s.fail("cross_grade", f"together with grade {grade:g} tilts the ground past "
+                                  f"vertical, got {cross:g}")
     values = _READERS[kind](s)
     s.finish()
-    return Segment(index=i, kind=kind, label=label, payload=payload, grade=grade, values=values)
+    return Segment(index=i, kind=kind, label=label, payload=payload, grade=grade, values=values,
+                   cross_grade=cross)
 
 
 def _check_overlaps(path, segments):

@@ -90,6 +90,7 @@ class CycleEvaluation:
 
     t s; segment (n,) index; x, y, theta: base path in the world (m, m, rad);
     v m/s, a m/s², omega rad/s, alpha rad/s²; payload (n,) bool; grade (n,);
+    cross_grade (n,) (rise/run across, left side up > 0);
     qs (n, nq) states evaluated (base at the origin); nu, nu_dot (n, nv);
     Q (n, nv) efforts N·m / N with friction; tau_out (n, 2) N·m gearbox output
     torque per drive wheel (rotor excluded); wheel_speed, wheel_acc (n, 2)
@@ -117,6 +118,7 @@ class CycleEvaluation:
     wheel_acc: np.ndarray
     wheel_force: np.ndarray
     stability: object
+    cross_grade: np.ndarray | None = None
 
     @property
     def duration(self):
@@ -167,23 +169,25 @@ def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None, held=None):
                           f"{robot.description.path.name} has no [payload]")
     seg_payload = np.array([s.payload for s in duty.segments])
     seg_grade = np.array([s.grade for s in duty.segments])
+    seg_cross = np.array([s.cross_grade for s in duty.segments])
     payload, grade = seg_payload[sample.segment], seg_grade[sample.segment]
+    cross = seg_cross[sample.segment]
     if held is not None:
         payload = np.full(payload.shape, robot.description.payload is not None)
     qs, nu, nu_dot = _states(robot, sample)
     n, nv = nu.shape
     Q = np.empty((n, nv))
     F = np.empty((n, 2))
-    groups = sorted({(bool(p), float(g)) for p, g in zip(payload, grade)})
+    groups = sorted({(bool(p), float(g), float(c)) for p, g, c in zip(payload, grade, cross)})
     pieces = []
     with robot.kept():
-        for k, (has_payload, g) in enumerate(groups):
-            m = (payload == has_payload) & (grade == g)
+        for k, (has_payload, g, c) in enumerate(groups):
+            m = (payload == has_payload) & (grade == g) & (cross == c)
             if has_payload:
                 robot.attach_payload()
             else:
                 robot.detach_payload()
-            robot.set_ground_slope(math.atan(g))
+            robot.set_ground_slope(math.atan(g), math.atan(c))
             Q[m] = inverse_dynamics_batch(robot, qs[m], nu[m], nu_dot[m])
             F[m] = tyre_forces(robot, qs[m], nu[m], nu_dot[m], Q[m])
             pieces.append((m, stability_track(robot, qs[m], nu[m], nu_dot[m], F[m])))
@@ -194,7 +198,7 @@ def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None, held=None):
     return CycleEvaluation(
         t=sample.t, segment=sample.segment, x=sample.x, y=sample.y, theta=sample.theta,
         v=sample.v, a=sample.a, omega=sample.omega, alpha=sample.alpha, payload=payload,
-        grade=grade, qs=qs, nu=nu, nu_dot=nu_dot, Q=Q, tau_out=tau_out,
+        grade=grade, cross_grade=cross, qs=qs, nu=nu, nu_dot=nu_dot, Q=Q, tau_out=tau_out,
         wheel_speed=nu[:, :2].copy(), wheel_acc=nu_dot[:, :2].copy(), wheel_force=F,
         stability=_merge_tracks(pieces, n))
 

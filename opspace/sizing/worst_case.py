@@ -70,7 +70,7 @@ __all__ = ["ArmGeometry", "Instant", "StopFigures", "WorstPose", "arm_geometry",
 @dataclass(frozen=True)
 class Instant:
     """A base motion state: v m/s, a m/s², omega rad/s, alpha rad/s², grade
-    (rise/run), payload held, and the cycle time t s it was taken from."""
+    (rise/run; `cross`: rise/run across, left side up > 0), payload held, and the cycle time t s it was taken from."""
 
     v: float
     a: float
@@ -79,6 +79,7 @@ class Instant:
     grade: float
     payload: bool
     t: float
+    cross: float = 0.0
 
 
 def _pose_dict(names, units, q):
@@ -114,15 +115,17 @@ class WorstPose:
 
 
 def critical_instants(ev):
-    """The cycle's most demanding base states, per (payload, grade) group."""
+    """The cycle's most demanding base states, per (payload, grade, cross grade) group."""
     picks = {}
     lateral = ev.v * ev.omega
-    for key in sorted({(bool(p), float(g)) for p, g in zip(ev.payload, ev.grade)}):
-        m = np.flatnonzero((ev.payload == key[0]) & (ev.grade == key[1]))
+    cross = ev.cross_grade if ev.cross_grade is not None else np.zeros_like(ev.grade)
+    for key in sorted({(bool(p), float(g), float(c))
+                       for p, g, c in zip(ev.payload, ev.grade, cross)}):
+        m = np.flatnonzero((ev.payload == key[0]) & (ev.grade == key[1]) & (cross == key[2]))
         for series in (ev.a, -ev.a, ev.alpha, -ev.alpha, lateral, -lateral, np.abs(ev.v)):
             i = int(m[np.argmax(series[m])])
             picks[i] = Instant(float(ev.v[i]), float(ev.a[i]), float(ev.omega[i]),
-                               float(ev.alpha[i]), key[1], key[0], float(ev.t[i]))
+                               float(ev.alpha[i]), key[1], key[0], float(ev.t[i]), key[2])
     return [picks[i] for i in sorted(picks)]
 
 
@@ -171,10 +174,17 @@ def _held(robot):
 
 
 def _by_grade(instants):
+    """{(grade, cross grade): [instant indices]}."""
     groups = {}
     for k, inst in enumerate(instants):
-        groups.setdefault(inst.grade, []).append(k)
+        groups.setdefault((inst.grade, inst.cross), []).append(k)
     return groups
+
+
+def tilt(robot, grade, cross=0.0):
+    """Gravity of a ground that rises `grade` (rise/run) along the robot's
+    forward axis and `cross` along its left axis (`set_ground_slope`)."""
+    robot.set_ground_slope(math.atan(grade), math.atan(cross))
 
 
 def _inverse_dynamics(robot, qs, nu, nu_dot):
@@ -190,8 +200,8 @@ def _peak_torque_batch(robot, poses, instants):
     inertia removed (the definition of `cycle`, used everywhere)."""
     P, K = len(poses), len(instants)
     out = np.empty((P, K))
-    for grade, ks in _by_grade(instants).items():
-        robot.set_ground_slope(math.atan(grade))
+    for key, ks in _by_grade(instants).items():
+        tilt(robot, *key)
         sub = [instants[k] for k in ks]
         qs, nu, nu_dot = _states(robot, poses, sub)
         Q = _inverse_dynamics(robot, qs, nu, nu_dot)
@@ -213,8 +223,8 @@ def _margin_grid(robot, poses, instants, polygon):
         I_G[p] = data.Ig.inertia
     out = np.empty((P, len(instants)))
     for k, inst in enumerate(instants):
-        th = math.atan(inst.grade)
-        g_vec = np.array([-math.sin(th), 0.0, -math.cos(th)]) * 9.80665
+        tilt(robot, inst.grade, inst.cross)
+        g_vec = robot.model.gravity.linear.copy()
         w, al = inst.omega, inst.alpha
         acc = np.column_stack([inst.a - al * com[:, 1] - w * w * com[:, 0],
                                inst.v * w + al * com[:, 0] - w * w * com[:, 1], np.zeros(P)])
@@ -233,8 +243,8 @@ def _margin_batch(robot, poses, instants, polygon):
 
     P, K = len(poses), len(instants)
     out = np.empty((P, K))
-    for grade, ks in _by_grade(instants).items():
-        robot.set_ground_slope(math.atan(grade))
+    for key, ks in _by_grade(instants).items():
+        tilt(robot, *key)
         qs, nu, nu_dot = _states(robot, poses, [instants[k] for k in ks])
         w = ground_wrench(robot, qs, nu, nu_dot)
         m = polygon.margin(zmp_of(w.force, w.moment, airborne="nan"))[0]
@@ -252,8 +262,8 @@ def _traction_batch(robot, poses, instants):
     so that the search can rank such poses."""
     P, K = len(poses), len(instants)
     out = np.empty((P, K))
-    for grade, ks in _by_grade(instants).items():
-        robot.set_ground_slope(math.atan(grade))
+    for key, ks in _by_grade(instants).items():
+        tilt(robot, *key)
         qs, nu, nu_dot = _states(robot, poses, [instants[k] for k in ks])
         Q = _inverse_dynamics(robot, qs, nu, nu_dot)
         F = tyre_forces(robot, qs, nu, nu_dot, Q)
