@@ -22,7 +22,8 @@ Keys (SI units; every key is documented in the README's reference section)::
     [payload] mass, com = [0, 0, 0], inertia = [0, 0, 0, 0, 0, 0]
     [arm_joint.<urdf joint>] coulomb, viscous, rotor_inertia = 0, gear_ratio = 1
     [poses]  <name> = [arm joint values]
-    [[caster]] position = [x, y]
+    [[caster]] position = [x, y], stiffness
+    [support], [[rocker]], [ground] friction_range: the load model (`support`)
     [[contact_point]] name, frame | outline, offset, region, area, direction
                       (see `description.contact`)
 """
@@ -39,6 +40,7 @@ from ..errors import ConfigError
 from ._toml import Section, check_inertia, read_document
 from ._urdf import Mimic, check_inertials, parse_xml, read_mimic
 from .contact import read_contact_points
+from .support import SupportSpec, read_friction_range, read_support
 
 __all__ = [
     "ArmJointDrive",
@@ -153,6 +155,8 @@ class RobotDescription:
     poses: dict = field(default_factory=dict)
     arm_model: object = None  # pinocchio.Model of the arm alone (fixed base)
     mimic: dict = field(default_factory=dict)  # follower joint -> Mimic of an independent one
+    support: SupportSpec = SupportSpec()
+    friction_range: tuple = (DEFAULT_GROUND_FRICTION, DEFAULT_GROUND_FRICTION)  # (low, high)
     contact_points: tuple = ()  # ContactPointSpec, for the contact pre-check
 
 
@@ -160,7 +164,7 @@ class RobotDescription:
 # the description
 # ---------------------------------------------------------------------------
 TOP_LEVEL = ("robot", "base", "wheel", "drive", "mount", "ground", "payload",
-             "arm_joint", "poses", "caster", "contact_point")
+             "arm_joint", "poses", "caster", "support", "rocker", "contact_point")
 
 
 def load_description(path, *, doc=None, urdf_text=None):
@@ -202,14 +206,18 @@ def load_description(path, *, doc=None, urdf_text=None):
 
     s = Section(path, "ground", doc.get("ground", {}))
     friction = s.number("friction", DEFAULT_GROUND_FRICTION, lo=0.0, lo_open=True)
+    friction_range = read_friction_range(s, friction)
     s.finish()
 
     payload = None
     if "payload" in doc:
         payload = read_payload(Section(path, "payload", doc["payload"]))
 
-    casters = _read_casters(path, doc.get("caster", []), base)
+    casters, caster_stiffness = _read_casters(path, doc.get("caster", []), base)
     arm_model, mimic = load_arm(arm_urdf, where=f"{name}: [robot] arm_urdf", text=urdf_text)
+    mass = base.mass + 2 * wheel.mass + sum(arm_model.inertias[j].mass
+                                            for j in range(arm_model.njoints))
+    support = read_support(path, doc, casters, caster_stiffness, mass * 9.80665)
     _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
     arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
     poses = _read_poses(path, doc.get("poses", {}), arm_model, mimic)
@@ -221,7 +229,7 @@ def load_description(path, *, doc=None, urdf_text=None):
         base=base, wheel=wheel, drive=drive, mount_xyz=mount_xyz,
         mount_rpy=mount_rpy, casters=casters, ground_friction=friction,
         payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic,
-        contact_points=contact_points)
+        contact_points=contact_points, support=support, friction_range=friction_range)
 
 
 def _check_contact_points(path, points, arm, base):
@@ -304,15 +312,21 @@ def read_payload(s):
 def _read_casters(path, entries, base):
     if not isinstance(entries, list):
         raise ConfigError(f"{path.name}: [[caster]] must be an array of tables, got {entries!r}")
-    casters = []
+    if not entries:
+        raise ConfigError(f"{path.name}: no [[caster]]: two drive wheels and no passive "
+                          "contact make a self-balancing base, outside opspace's scope "
+                          "(add at least one caster)")
+    casters, stiffness = [], []
     for i, entry in enumerate(entries):
         s = Section(path, f"caster {i + 1}", entry)
         x, y = s.vector("position", 2, unit="m")
+        stiffness.append(s.number("stiffness", unit="N/m", lo=0.0, lo_open=True,
+                                  required=False))
         s.finish()
         if abs(x) < 1e-9 and abs(abs(y) - base.half_track) < 1e-9:
             s.fail("position", f"coincides with a drive wheel contact, got {[x, y]}")
         casters.append((x, y))
-    return tuple(casters)
+    return tuple(casters), stiffness
 
 
 def load_arm_urdf(urdf_path, *, where, text=None):

@@ -173,8 +173,16 @@ def _robot_criteria(robot, ev):
     use = np.where(np.isfinite(st.traction), st.traction, np.inf)
     i, w = np.unravel_index(int(np.argmax(use)), use.shape)
     where = lambda k: f"t = {ev.t[k]:.2f} s (segment {ev.segment[k] + 1})"  # noqa: E731
-    traction = Criterion.at_most("traction", float(use[i, w]), 1.0, "",
-                                 note=f"{WHEELS[w]} at {where(i)}")
+    note = f"{WHEELS[w]} at {where(i)}"
+    lifted = st.loads.lifted[:, :2]
+    if lifted.any():
+        from ..stability import describe_lift_off, lift_off_spans
+        spans = lift_off_spans(ev.t, lifted, [f"the {n}" for n in WHEELS])
+        note = f"lift-off: {describe_lift_off(spans)} (no grip there: traction use unbounded)"
+    elif not st.loads.supported.all():
+        k = int(np.argmin(st.loads.supported))
+        note = f"the robot tips at {where(k)}: no grip"
+    traction = Criterion.at_most("traction", float(use[i, w]), 1.0, "", note=note)
     j = int(np.argmin(st.margin))
     d = float(st.margin[j])
     d_static = float(st.polygon.margin(st.wrench.com[j, :2])[0])
