@@ -390,15 +390,17 @@ def _verdict(result, *, asked):
 
 
 def _failing_case(result):
-    """Words for the first envelope case that fails the recommended drive or a robot row."""
+    """Words for the envelope case behind the first failing envelope row (robot
+    rows, then those of the planned cycle's recommended drive)."""
     rec = _smallest(result.catalogue, result.cycle_sweeps) if result.catalogue else None
+    rows = [c for c in result.envelope_criteria if not c.passed]
+    if rec is not None:
+        i, k = result.cycle_sweeps.index(rec[0]), rec[0].checks.index(rec[1])
+        rows += [c for c in result.envelope_sweeps[i].checks[k].criteria if not c.passed]
     names = result.robot.arm_joint_names, result.robot.arm_units
-    for j, case in enumerate(result.cases):
-        bad = [c for c in case.robot_criteria if not c.passed]
-        if rec is not None and not bad:
-            i = result.cycle_sweeps.index(rec[0])
-            k = rec[0].checks.index(rec[1])
-            bad = [c for c in case.sweeps[i].checks[k].criteria if not c.passed]
-        if bad:
-            return f"{case.label.replace('held', 'is held', 1)} ({pose_text(*names, case.pose)}) while driving"
+    for row in rows:
+        for case in result.cases:
+            if row.note.startswith(case.label):
+                return (f"{case.label.replace('held', 'is held', 1)} "
+                        f"({pose_text(*names, case.pose)}) while driving")
     return "arm is held at a worst-case pose while driving"
