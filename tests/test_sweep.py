@@ -196,6 +196,9 @@ def test_the_page_draws_the_best_design_in_3d_offline(basic_run, tmp_path):
     _, out, _ = basic_run
     view = open_view3d(out / "sweep.html", screenshot=tmp_path / "sweep.png")
     assert view.ok, view.problems()
+    from browser import open_page, visible_text_problems
+    text = open_page(out / "sweep.html", evaluate="document.body.innerText").evaluated
+    assert not visible_text_problems(text)
     assert view.evaluated["frames"] == 1
     assert view.evaluated["drawn"] > 0.01 and view.evaluated["empty"] < 1e-3, view.evaluated
 
