@@ -329,7 +329,7 @@ def _criteria_table(page, criteria):
     for k in criteria:
         unit = "" if k.unit in ("", "1") else f" {k.unit}"
         rows.append([k.name, f"{fmt(k.value)}{unit}", f"{fmt(k.limit)}{unit}",
-                     margin_text(k.margin), "pass" if k.passed else "FAIL", k.note])
+                     margin_text(k.margin, "unbounded"), "pass" if k.passed else "FAIL", k.note])
         cls.append(["", "", "", "", "ok" if k.passed else "bad", ""])
     page.table(["criterion", "required", "limit", "margin", "verdict", "where"], rows,
                left=(0, 5), classes=cls)

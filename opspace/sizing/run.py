@@ -361,11 +361,12 @@ def _basis_verdict(criteria, sweeps, catalogue):
     return "pass", drives
 
 
-def margin_text(x):
+def margin_text(x, unbounded="beyond range"):
     """A margin in percent whose sign rounding never hides ("-0%" reads "-0.4%");
-    −inf (a point beyond a motor's speed range) reads "beyond range"."""
+    −inf reads `unbounded` (default "beyond range": a point beyond a motor's
+    speed range)."""
     if not math.isfinite(x):
-        return "n/a" if math.isnan(x) else ("beyond range" if x < 0 else "unlimited")
+        return "n/a" if math.isnan(x) else (unbounded if x < 0 else "unlimited")
     text = f"{x:+.0%}"
     if text in ("+0%", "-0%"):
         text = f"{x:+.1%}" if abs(x) >= 5e-4 else ("-<0.1%" if x < 0 else "+<0.1%")
