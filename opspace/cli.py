@@ -69,6 +69,8 @@ def _cmd_size(args):
     from .description.duty import load_duty_cycle
     from .model import load_robot
     from .report import write_sizing_report
+    import numpy as np
+
     from .sizing import size
     from .sizing.run import margin_text as pct
 
@@ -93,8 +95,9 @@ def _cmd_size(args):
     print(f"{result.status.upper()}: {result.message}")
     for c in result.robot_criteria:
         unit = "" if c.unit in ("", "1") else f" {c.unit}"
-        print(f"  {c.name:<10} {c.value:.3g}{unit} (limit {c.limit:g}{unit}), margin "
-              f"{pct(c.margin)}: {'pass' if c.passed else 'FAIL'} — {c.note}")
+        value = f"{c.value:.3g}{unit}" if np.isfinite(c.value) else "unbounded"
+        print(f"  {c.name:<10} {value} (limit {c.limit:g}{unit}), margin "
+              f"{pct(c.margin, 'unbounded')}: {'pass' if c.passed else 'FAIL'} — {c.note}")
     if result.stop is not None:
         s = result.stop
         if s.deceleration > 0:
