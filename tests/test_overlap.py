@@ -25,16 +25,24 @@ except ModuleNotFoundError:
 Q0, Q1 = [0.3, 0.0, -0.4], [1.5, 0.1, 0.6]
 
 
-def _overlap_cycle(tmp_path, offset):
+def _kane_cycle(tmp_path, segments, sample_rate=100.0, evaluate=True, **cycle):
+    """The Kane reference robot and a duty cycle of `segments` for it:
+    (params, robot, CycleEvaluation), or the cycle's path without `evaluate`."""
     params = kane.random_params(20251)
     robot_path = kane.write_description(params, tmp_path)
-    doc = {"cycle": {"name": "overlap", "robot": robot_path.name, "cycles_per_hour": 10.0,
-                     "sample_rate": 100.0, "arm_start": Q0},
-           "segment": [{"kind": "straight", "distance": 4.0, "speed": 1.0, "acceleration": 1.0},
-                       {"kind": "arm", "to": Q1, "duration": 2.0, "offset": offset}]}
-    duty = opspace.load_duty_cycle(write_toml(tmp_path / "cycle.toml", doc))
+    doc = {"cycle": {"name": "test", "robot": robot_path.name, "cycles_per_hour": 10.0,
+                     "sample_rate": sample_rate, **cycle}, "segment": segments}
+    path = write_toml(tmp_path / "cycle.toml", doc)
+    if not evaluate:
+        return path
     robot = opspace.load_robot(robot_path)
-    return params, robot, evaluate_cycle(robot, duty)
+    return params, robot, evaluate_cycle(robot, opspace.load_duty_cycle(path))
+
+
+def _overlap_cycle(tmp_path, offset):
+    return _kane_cycle(tmp_path, [
+        {"kind": "straight", "distance": 4.0, "speed": 1.0, "acceleration": 1.0},
+        {"kind": "arm", "to": Q1, "duration": 2.0, "offset": offset}], arm_start=Q0)
 
 
 def test_arm_swing_during_a_straight_matches_kane(tmp_path):
@@ -65,12 +73,10 @@ def test_arm_swing_during_a_straight_matches_kane(tmp_path):
 
 
 def test_offset_needs_a_base_segment_before(tmp_path):
-    params = kane.random_params(20251)
-    kane.write_description(params, tmp_path)
-    doc = {"cycle": {"name": "x", "robot": "robot.toml", "cycles_per_hour": 1.0},
-           "segment": [{"kind": "arm", "to": Q1, "duration": 2.0, "offset": 0.5}]}
+    path = _kane_cycle(tmp_path, [{"kind": "arm", "to": Q1, "duration": 2.0, "offset": 0.5}],
+                       evaluate=False)
     with pytest.raises(opspace.ConfigError, match=r"segment\]\] 1 \(arm\) offset"):
-        opspace.load_duty_cycle(write_toml(tmp_path / "c.toml", doc))
+        opspace.load_duty_cycle(path)
 
 
 # ------------------------------------------------------------------ blended segments
@@ -80,15 +86,10 @@ def test_blended_straights_keep_the_speed(tmp_path):
     # flat straight 3 m at 1 m/s, 0.5 m/s², blending onto a 5 % ramp of 2 m at
     # 1 m/s: 2 s up to speed (1 m), 2 s cruise; then 1 s cruise, 2 s braking
     # (1 m): 7 s in all, at 1 m/s across the join (9 s with a stop between).
-    params = kane.random_params(20251)
-    robot_path = kane.write_description(params, tmp_path)
-    doc = {"cycle": {"name": "blend", "robot": robot_path.name, "cycles_per_hour": 10.0,
-                     "sample_rate": 100.0},
-           "segment": [{"kind": "straight", "distance": 3.0, "speed": 1.0, "acceleration": 0.5},
-                       {"kind": "straight", "distance": 2.0, "speed": 1.0, "acceleration": 0.5,
-                        "grade": 0.05, "blend": True}]}
-    duty = opspace.load_duty_cycle(write_toml(tmp_path / "cycle.toml", doc))
-    ev = evaluate_cycle(opspace.load_robot(robot_path), duty)
+    _, _, ev = _kane_cycle(tmp_path, [
+        {"kind": "straight", "distance": 3.0, "speed": 1.0, "acceleration": 0.5},
+        {"kind": "straight", "distance": 2.0, "speed": 1.0, "acceleration": 0.5, "grade": 0.05,
+         "blend": True}])
     assert ev.duration == pytest.approx(7.0, abs=1e-9)
     k = int(np.argmin(np.abs(ev.t - 4.0)))
     assert ev.segment[k] == 1 and ev.segment[k - 1] == 0
@@ -98,14 +99,12 @@ def test_blended_straights_keep_the_speed(tmp_path):
 
 
 def test_blend_needs_a_moving_segment_before(tmp_path):
-    params = kane.random_params(20251)
-    kane.write_description(params, tmp_path)
-    doc = {"cycle": {"name": "x", "robot": "robot.toml", "cycles_per_hour": 1.0},
-           "segment": [{"kind": "turn", "angle": 1.0, "rate": 1.0, "acceleration": 1.0},
-                       {"kind": "straight", "distance": 1.0, "speed": 0.5, "acceleration": 0.5,
-                        "blend": True}]}
+    path = _kane_cycle(tmp_path, [
+        {"kind": "turn", "angle": 1.0, "rate": 1.0, "acceleration": 1.0},
+        {"kind": "straight", "distance": 1.0, "speed": 0.5, "acceleration": 0.5, "blend": True}],
+        evaluate=False)
     with pytest.raises(opspace.ConfigError, match=r"segment\]\] 2 \(straight\) blend.*a turn"):
-        opspace.load_duty_cycle(write_toml(tmp_path / "c.toml", doc))
+        opspace.load_duty_cycle(path)
 
 
 # ------------------------------------------------------------------ cross-slope
@@ -119,15 +118,9 @@ def test_cross_slope_statics(tmp_path):
     # rolling straight, (Q_r + Q_l)/r = m g sin α; yawing about the pivot, the
     # COM (x_c, y_c) moves by δψ (−y_c, x_c), so
     # (Q_r − Q_l) b / r = −m g (sin α y_c − sin β x_c).
-    params = kane.random_params(20251)
-    robot_path = kane.write_description(params, tmp_path)
-    doc = {"cycle": {"name": "cross", "robot": robot_path.name, "cycles_per_hour": 10.0,
-                     "sample_rate": 50.0},
-           "segment": [{"kind": "dwell", "duration": 1.0, "cross_grade": 0.1},
-                       {"kind": "dwell", "duration": 1.0, "cross_grade": -0.2, "grade": 0.3}]}
-    duty = opspace.load_duty_cycle(write_toml(tmp_path / "cycle.toml", doc))
-    robot = opspace.load_robot(robot_path)
-    ev = evaluate_cycle(robot, duty)
+    _, robot, ev = _kane_cycle(tmp_path, [
+        {"kind": "dwell", "duration": 1.0, "cross_grade": 0.1},
+        {"kind": "dwell", "duration": 1.0, "cross_grade": -0.2, "grade": 0.3}], sample_rate=50.0)
     m, g = robot.total_mass(), 9.80665
     for seg, (a, c) in enumerate(((0.0, 0.1), (0.3, -0.2))):
         sa, sb = np.sin(np.arctan(a)), np.sin(np.arctan(c))
