@@ -4,6 +4,7 @@ file or argument prints one line and exits with status 2."""
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 from pathlib import Path
 
@@ -66,21 +67,21 @@ class _Progress:
 
 
 def _cmd_size(args):
-    from .description.duty import load_duty_cycle
+    from .description import load_duty_cycle
     from .model import load_robot
     from .report import write_sizing_report
     import numpy as np
 
     from .sizing import size
-    from .sizing.run import margin_text as pct
+    from .sizing import margin_text as pct
 
     path = Path(args.cycle) if args.cycle else demo_cycle_path()
     duty = load_duty_cycle(path)
-    robot = load_robot(duty.robot_path)
+    robot = load_robot(args.robot or duty.robot_path)   # --robot: e.g. an identified one
     duty = load_duty_cycle(path, robot=robot)          # cross-checks before computing
     catalogue = args.catalogue
     if catalogue is not None:
-        from .description.catalogue import load_catalogue
+        from .description import load_catalogue
         catalogue = load_catalogue(catalogue)
     out = Path(args.output)
     if out.exists() and not out.is_dir():
@@ -117,12 +118,15 @@ def _cmd_size(args):
 
 
 def _cmd_simulate(args):
-    from .description.scenario import load_scenario
-    from .report.simulation import simulation_text, write_simulation_outputs
-    from .simulate import ScenarioRun, SimulationError
+    from .description import load_scenario
+    from .report import simulation_text, write_simulation_outputs
+    from .simulation import ScenarioRun, SimulationError
 
     path = Path(args.scenario) if args.scenario else demo_robot_path().with_name("pick.toml")
     scenario = load_scenario(path)
+    if args.robot:                                      # e.g. an identified robot
+        from dataclasses import replace
+        scenario = replace(scenario, robot_path=Path(args.robot).resolve())
     run = ScenarioRun(scenario, payload_mass_error=args.payload_error,   # validates it all
                       compiled=False if args.reference_loop else None)
     out = Path(args.output)
@@ -154,7 +158,7 @@ def _cmd_simulate(args):
 def _cmd_contact(args):
     from .contact import check_contacts, load_contact_points, load_regions
     from .model import load_robot
-    from .report.contact import write_contact_report
+    from .report import write_contact_report
 
     robot = load_robot(args.robot or demo_robot_path())
     points = load_contact_points(args.points) if args.points else None
@@ -191,6 +195,57 @@ def _output_dir(path):
         raise ConfigError(f"-o {out}: exists and is not a directory")
     return out
 # ---------------------------------------------------------- end opspace contact
+
+
+# ------------------------------------------------------------- opspace identify
+def _cmd_identify(args):
+    from .description import read_toml
+    from .description import load_motion_log
+    from .identify import identify
+    from .model import load_robot
+    from .report import write_identify_outputs
+
+    robot = load_robot(args.robot)
+    doc = read_toml(args.robot)
+    if "arm_urdf" not in doc.get("robot", {}):
+        raise ConfigError(f"{Path(args.robot).name}: identification writes back the "
+                          f"arm-URDF form of a description ([robot] arm_urdf)")
+    constants = dict(_torque_constant(text) for text in args.torque_constant or ())
+    logs = []
+    for path in args.logs:
+        logs.append(load_motion_log(path, robot, torque_constants=dict(constants)))
+    out = _output_dir(args.output)
+    result = identify(robot, logs, cutoff=args.cutoff)
+    urdf_text = robot.description.arm_urdf.read_text(encoding="utf-8")
+    paths = write_identify_outputs(result, logs, doc, urdf_text, out)
+    fit = result.fit
+    kept = f"; kept at the description's values: {len(result.consistency)}" \
+        if result.consistency else ""
+    print(f"IDENTIFIED: {len(fit.base.index)} identifiable combinations of "
+          f"{result.params.size} parameters, condition number {fit.condition:.3g}{kept}")
+    if result.params.payload is not None:
+        print(f"  payload mass {result.value('payload.m'):.4g} kg (description "
+              f"{result.prior('payload.m'):.4g} kg)")
+    for c in robot.coordinate_names[:2]:
+        print(f"  {c}: Coulomb {result.value(c + '.coulomb'):.4g} N·m, viscous "
+              f"{result.value(c + '.viscous'):.4g} N·m·s/rad")
+    print(f"page: {paths['identify.html']}; identified robot: {paths['identified/robot.toml']} "
+          f"(use it with check, size --robot, simulate --robot, contact)")
+    print("Estimates from logged motion: verify on hardware before relying on them.")
+    return 0
+
+
+def _torque_constant(text):
+    name, sep, value = text.partition("=")
+    try:
+        k = float(value)
+    except ValueError:
+        k = math.nan
+    if not sep or not name or not (0.0 < k < 100.0):
+        raise ConfigError(f"--torque-constant {text!r}: expected COORDINATE=K with K in "
+                          f"(0, 100) N·m/A")
+    return name, k
+# --------------------------------------------------------- end opspace identify
 
 
 # ---------------------------------------------------------------- opspace sweep
@@ -231,6 +286,69 @@ def _cmd_sweep(args):
 # ------------------------------------------------------------ end opspace sweep
 
 
+# --------------------------------------------------------------- opspace limits
+def _limits_candidate(args):
+    """(motor, gearbox, ratio) from --catalogue/--motor/--gearbox/--ratio, or None."""
+    given = [args.motor, args.gearbox, args.ratio]
+    if args.catalogue is None:
+        if any(x is not None for x in given):
+            raise ConfigError("--motor, --gearbox and --ratio need --catalogue FILE")
+        return None
+    from .description import load_catalogue
+
+    cat = load_catalogue(args.catalogue)
+    if any(x is None for x in given):
+        raise ConfigError(f"--catalogue {Path(args.catalogue).name}: give --motor NAME, "
+                          f"--gearbox NAME and --ratio G to choose the drive candidate")
+    try:
+        return cat.motor(args.motor), cat.gearbox(args.gearbox), args.ratio
+    except KeyError as exc:
+        raise ConfigError(str(exc.args[0])) from None
+
+
+def _cmd_limits(args):
+    from .limits import limits_study
+    from .model import load_robot
+    from .report import write_limits_report
+
+    robot = load_robot(args.robot or demo_robot_path())
+    candidate = _limits_candidate(args)
+    if args.points < 2:
+        raise ConfigError(f"--points must be >= 2, got {args.points}")
+    out = Path(args.output)
+    if out.exists() and not out.is_dir():
+        raise ConfigError(f"-o {out}: exists and is not a directory")
+    payload = args.payload
+    if payload is None:
+        payload = robot.description.payload is not None
+    options = dict(payload=payload, friction=args.friction, grade=args.grade, speed=args.speed,
+                   turn_speed=args.turn_speed, zmp_margin=args.zmp_margin,
+                   traction_ceiling=args.traction_ceiling, candidate=candidate)
+    views = [v for v in args.views.split(",") if v]
+    bad = [v for v in views if v not in ("side", "top")]
+    if bad:
+        raise ConfigError(f"--views: {bad[0]!r} is not a view (side, top)")
+    progress = _Progress(not args.quiet and sys.stderr.isatty())
+    try:
+        study = limits_study(robot, views=views, points=args.points, posture=args.posture,
+                             stopping_length=args.stopping_length,
+                             reaction_time=args.reaction_time, progress=progress, **options)
+        paths = write_limits_report(study, robot, out)
+    finally:
+        progress.close()
+    print(f"{study.status.upper()}: motion limits of {study.robot} ({study.drive})")
+    for k, name in enumerate(study.poses.names):
+        vals = ", ".join(f"{n.replace('_acceleration', '')} {study.poses.values[n][k]:.3g} "
+                         f"({study.poses.limited_by[n][k]})"
+                         for n in ("acceleration", "deceleration", "yaw_acceleration",
+                                   "lateral_acceleration"))
+        print(f"  {name:<16} {study.poses.status[k] if study.poses.status[k] != 'ok' else vals}")
+    print(f"page: {paths['html']}; lookup table: {paths['csv']}, {paths['json']}")
+    print("Model estimates: validate the planner's limiter on the robot, follow the applicable "
+          "safety standards.")
+    return 0 if study.status == "ok" else 1
+
+
 def _speed_arg(text):
     v = float(text)
     if not 0.0 <= v <= 20.0:          # nan fails both comparisons
@@ -243,6 +361,13 @@ def _samples_arg(text):
     if not 10 <= n <= 200_000:
         raise argparse.ArgumentTypeError(f"must be a whole number within 10..200000, got {text}")
     return n
+
+
+def _cutoff_arg(text):
+    v = float(text)
+    if not 0.01 <= v <= 1000.0:       # nan fails both comparisons
+        raise argparse.ArgumentTypeError(f"must be a frequency within 0.01..1000 Hz, got {text}")
+    return v
 
 
 def build_parser():
@@ -261,6 +386,8 @@ def build_parser():
     p.add_argument("-o", "--output", default="opspace-report",
                    help="output directory (default: ./opspace-report)")
     p.add_argument("--catalogue", help="motor and gearbox catalogue TOML (default: the cycle's)")
+    p.add_argument("--robot", help="robot description TOML instead of the cycle's (e.g. the "
+                                   "one opspace identify wrote)")
     p.add_argument("--no-search", action="store_true",
                    help="skip the worst-case arm search, the envelope cases and the "
                         "shortest-stop figure (the verdict then covers the planned cycle only)")
@@ -277,6 +404,8 @@ def build_parser():
     p.add_argument("-o", "--output", default="opspace-simulation",
                    help="output directory (default: ./opspace-simulation)")
     p.add_argument("--integrator", choices=("rk4", "euler"), help="override the scenario's")
+    p.add_argument("--robot", help="robot description TOML instead of the scenario's (e.g. "
+                                   "the one opspace identify wrote)")
     p.add_argument("--payload-error", type=float, default=None,
                    help="relative payload-mass error of the controller's model (e.g. 0.1)")
     p.add_argument("--no-animation", action="store_true", help="skip the GIF")
@@ -285,6 +414,38 @@ def build_parser():
                         "(same equations, ~5x slower; for cross-checks)")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_simulate)
+    p = sub.add_parser("limits", help="motion limits of the base over the arm's workspace "
+                       "(maps, named poses) for a motion planner")
+    p.add_argument("robot", nargs="?", help="robot description TOML (default: the bundled demo)")
+    p.add_argument("-o", "--output", default="opspace-limits",
+                   help="output directory (default: opspace-limits)")
+    pay = p.add_mutually_exclusive_group()
+    pay.add_argument("--payload", dest="payload", action="store_true", default=None,
+                     help="hold the described payload (default when one is described)")
+    pay.add_argument("--no-payload", dest="payload", action="store_false")
+    p.add_argument("--friction", type=float, help="tyre-floor friction (default: described)")
+    p.add_argument("--grade", type=float, default=0.0, help="ground rise/run, facing uphill")
+    p.add_argument("--speed", type=float, default=0.0, help="base speed, m/s (default 0)")
+    p.add_argument("--turn-speed", type=float, help="speed of the turn for the lateral "
+                   "limit, m/s (default: --speed, else half the top speed, else 1)")
+    p.add_argument("--zmp-margin", type=float, default=0.0,
+                   help="least ZMP distance to a support edge, m (default 0)")
+    p.add_argument("--traction-ceiling", type=float, default=1.0,
+                   help="largest traction use, in (0, 1] (default 1)")
+    p.add_argument("--catalogue", help="catalogue TOML of a drive candidate")
+    p.add_argument("--motor", help="the candidate's motor (name in --catalogue)")
+    p.add_argument("--gearbox", help="the candidate's gearbox family (name in --catalogue)")
+    p.add_argument("--ratio", type=float, help="the candidate's gear ratio")
+    p.add_argument("--stopping-length", type=float,
+                   help="protective field: stopping length, m (adds the top speed per pose)")
+    p.add_argument("--reaction-time", type=float, default=0.0,
+                   help="protective field: reaction time before braking, s (default 0)")
+    p.add_argument("--points", type=int, default=21, help="grid points per map axis (21)")
+    p.add_argument("--views", default="side,top", help="maps: side, top or both (side,top)")
+    p.add_argument("--posture", help="named pose the maps' redundancy starts from "
+                   "(default: the arm at zero)")
+    p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
+    p.set_defaults(func=_cmd_limits)
     # ---------------------------------------------------------- opspace contact
     p = sub.add_parser("contact", help="effective mass and permissible contact speed of the "
                                        "robot's contact points (two-body model pre-check)")
@@ -305,6 +466,18 @@ def build_parser():
     p.add_argument("--samples", type=_samples_arg, default=1500,
                    help="arm configurations sampled for a map (default 1500)")
     p.set_defaults(func=_cmd_contact)
+    # --------------------------------------------------------- opspace identify
+    p = sub.add_parser("identify", help="identify the robot's parameters from logged motion "
+                                        "(CSV) and write an identified description")
+    p.add_argument("logs", nargs="+", help="motion logs (CSV, see the README)")
+    p.add_argument("--robot", required=True, help="robot description TOML")
+    p.add_argument("-o", "--output", default="opspace-identify",
+                   help="output directory (default: ./opspace-identify)")
+    p.add_argument("--cutoff", type=_cutoff_arg, default=10.0,
+                   help="zero-phase low-pass cut-off for the derivatives, Hz (default 10)")
+    p.add_argument("--torque-constant", action="append", metavar="COORDINATE=K",
+                   help="motor torque constant (N·m/A) for a current:COORDINATE column")
+    p.set_defaults(func=_cmd_identify)
     # ------------------------------------------------------------ opspace sweep
     p = sub.add_parser("sweep", help="size many design points (a sweep file) on local "
                                      "processes or a Dask cluster; CSV and HTML page")

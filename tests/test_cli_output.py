@@ -39,8 +39,8 @@ def test_check_names_its_quantities():
 def test_tracking_targets_come_from_the_scenario(tmp_path):
     from dataclasses import replace
 
-    from opspace.description.scenario import load_scenario
-    from opspace.report.simulation import tracking_targets
+    from opspace.description import load_scenario
+    from opspace.report import tracking_targets
     from conftest import DEMO
     sc = load_scenario(DEMO.with_name("pick.toml"))
     assert (sc.tracking_rms, sc.tracking_peak) == (0.005, 0.015)

@@ -14,8 +14,7 @@ except ImportError:                  # Python 3.10
     import tomli as tomllib
 
 import opspace
-from opspace.sizing.run import robot_level
-from opspace.sizing.worst_case import Instant, clearance, worst_poses
+from opspace.sizing import Instant, arm_geometry, clearance, robot_level, worst_poses
 from conftest import base_doc, make_robot, urdf, urdf_joint, urdf_link, with_overrides, write_toml
 
 G0 = 9.80665
@@ -249,7 +248,7 @@ def test_simulation_flags_speed_and_effort_limits():
     # Arithmetic on a hand-made run: coordinate "elbow" (limit 2 rad/s) reaches
     # 2.5 rad/s first at t = 0.3 s; "shoulder" demands 12 N·m against 10 N·m
     # first at t = 0.2 s; nothing else passes its limit.
-    from opspace.simulate import SimulationResult
+    from opspace.simulation import SimulationResult
     t = np.arange(6) * 0.1
     n, nv = len(t), 4
     nu, Qd = np.zeros((n, nv)), np.zeros((n, nv))
@@ -280,7 +279,6 @@ def test_clearance_uses_the_urdf_collision_shapes(tmp_path):
         '<link name="link2">', '<link name="link2"><collision><origin xyz="0.4 0 0"/>'
         '<geometry><sphere radius="0.1"/></geometry></collision>')
     robot = make_robot(tmp_path, text, rect_robot_doc())
-    from opspace.sizing.worst_case import arm_geometry
     geometry = arm_geometry(robot)
     assert len(geometry.shapes) == 1 and "1 URDF collision shapes" in geometry.used
     q1 = math.asin(-0.35 / 0.9)

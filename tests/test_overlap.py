@@ -14,7 +14,7 @@ import pytest
 pytest.importorskip("sympy")
 
 import opspace  # noqa: E402
-from opspace.sizing.cycle import evaluate_cycle  # noqa: E402
+from opspace.sizing import evaluate_cycle  # noqa: E402
 from conftest import write_toml  # noqa: E402
 
 try:  # tests/ as a package (rootdir on sys.path) or as a plain directory
