@@ -181,6 +181,14 @@ def _by_grade(instants):
     return groups
 
 
+def _grouped_states(robot, poses, instants):
+    """Per (grade, cross grade) group of instants, with gravity tilted for it:
+    (instant indices, then the batch states of every pose × those instants)."""
+    for key, ks in _by_grade(instants).items():
+        tilt(robot, *key)
+        yield (ks, *_states(robot, poses, [instants[k] for k in ks]))
+
+
 def tilt(robot, grade, cross=0.0):
     """Gravity of a ground that rises `grade` (rise/run) along the robot's
     forward axis and `cross` along its left axis (`set_ground_slope`)."""
@@ -200,10 +208,7 @@ def _peak_torque_batch(robot, poses, instants):
     inertia removed (the definition of `cycle`, used everywhere)."""
     P, K = len(poses), len(instants)
     out = np.empty((P, K))
-    for key, ks in _by_grade(instants).items():
-        tilt(robot, *key)
-        sub = [instants[k] for k in ks]
-        qs, nu, nu_dot = _states(robot, poses, sub)
+    for ks, qs, nu, nu_dot in _grouped_states(robot, poses, instants):
         Q = _inverse_dynamics(robot, qs, nu, nu_dot)
         tau_out = Q[:, :2] - robot.description.drive.reflected_inertia * nu_dot[:, :2]
         out[:, ks] = np.abs(tau_out).max(axis=1).reshape(P, len(ks))
@@ -243,9 +248,7 @@ def _margin_batch(robot, poses, instants, polygon):
 
     P, K = len(poses), len(instants)
     out = np.empty((P, K))
-    for key, ks in _by_grade(instants).items():
-        tilt(robot, *key)
-        qs, nu, nu_dot = _states(robot, poses, [instants[k] for k in ks])
+    for ks, qs, nu, nu_dot in _grouped_states(robot, poses, instants):
         w = ground_wrench(robot, qs, nu, nu_dot)
         m = polygon.margin(zmp_of(w.force, w.moment, airborne="nan"))[0]
         out[:, ks] = np.where(np.isfinite(m), m, -np.inf).reshape(P, len(ks))
@@ -262,9 +265,7 @@ def _traction_batch(robot, poses, instants):
     so that the search can rank such poses."""
     P, K = len(poses), len(instants)
     out = np.empty((P, K))
-    for key, ks in _by_grade(instants).items():
-        tilt(robot, *key)
-        qs, nu, nu_dot = _states(robot, poses, [instants[k] for k in ks])
+    for ks, qs, nu, nu_dot in _grouped_states(robot, poses, instants):
         Q = _inverse_dynamics(robot, qs, nu, nu_dot)
         F = tyre_forces(robot, qs, nu, nu_dot, Q)
         use = stability_track(robot, qs, nu, nu_dot, F).traction
