@@ -289,14 +289,7 @@ def size(duty, *, robot=None, catalogue=None, search=True, basis=None, progress=
     instants, worst, stop, cases = (), (None, None, None), None, ()
     env_criteria = env_sweeps = None
     if search:
-        instants = tuple(critical_instants(ev))
-        worst = worst_poses(robot, list(instants),
-                            progress=lambda d, t: note("worst-case search", d, t))
-        stop = shortest_stop(robot, float(np.max(np.abs(ev.v))), worst[1].q)
-        cases = tuple(evaluate_case(robot, duty, w.objective, w.q, catalogue,
-                                    robot_rows=_robot_criteria, load_inertia=J_load,
-                                    wheel_duty=make_duty) for w in worst)
-        note("envelope", 1, 1)
+        instants, worst, stop, cases = _search(robot, duty, ev, catalogue, J_load, make_duty, note)
         env_criteria = merge_criteria([(None, extra)] + [(c.label, c.robot_criteria)
                                                          for c in cases])
         env_sweeps = merge_sweeps(sweeps, cases)
@@ -315,6 +308,20 @@ def size(duty, *, robot=None, catalogue=None, search=True, basis=None, progress=
     object.__setattr__(result, "status", status)
     object.__setattr__(result, "message", message)
     return result
+
+
+def _search(robot, duty, ev, catalogue, J_load, make_duty, note):
+    """The worst-case search, the shortest stop and the envelope cases:
+    (instants, worst poses, StopFigures, EnvelopeCases)."""
+    instants = tuple(critical_instants(ev))
+    worst = worst_poses(robot, list(instants),
+                        progress=lambda d, t: note("worst-case search", d, t))
+    stop = shortest_stop(robot, float(np.max(np.abs(ev.v))), worst[1].q)
+    cases = tuple(evaluate_case(robot, duty, w.objective, w.q, catalogue,
+                                robot_rows=_robot_criteria, load_inertia=J_load,
+                                wheel_duty=make_duty) for w in worst)
+    note("envelope", 1, 1)
+    return instants, worst, stop, cases
 
 
 def _contact_check(robot, ev, search):
