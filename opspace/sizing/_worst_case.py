@@ -62,6 +62,7 @@ from scipy.optimize import differential_evolution, minimize
 from ..dynamics import inverse_dynamics_batch
 from ..errors import ModelError
 from ..stability import ground_wrench, stability_track, tyre_forces
+from ..stability import zmp as zmp_of
 
 __all__ = ["ArmGeometry", "Instant", "StopFigures", "WorstPose", "arm_geometry", "clearance",
            "critical_instants", "shortest_stop", "worst_poses"]
@@ -236,16 +237,14 @@ def _margin_grid(robot, poses, instants, polygon):
         f = m * (acc - g_vec)
         n_G = I_G[:, :, 2] * al + np.cross(np.array([0.0, 0.0, w]), I_G[:, :, 2] * w)
         n_o = n_G + np.cross(com, f)
-        zmp = np.column_stack([-n_o[:, 1], n_o[:, 0]]) / f[:, 2:3]
-        out[:, k] = polygon.margin(zmp)[0]
+        margin = polygon.margin(zmp_of(f, n_o, airborne="nan"))[0]
+        out[:, k] = np.where(np.isfinite(margin), margin, -np.inf)     # airborne: the worst
     return out
 
 
 def _margin_batch(robot, poses, instants, polygon):
     """(P, K) exact tip-over margin, m: ZMP of the ground wrench (centroidal
     momentum rate) to the nearest support edge; −inf when the robot is airborne."""
-    from ..stability import zmp as zmp_of
-
     P, K = len(poses), len(instants)
     out = np.empty((P, K))
     for ks, qs, nu, nu_dot in _grouped_states(robot, poses, instants):

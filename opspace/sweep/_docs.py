@@ -22,7 +22,7 @@ from collections import OrderedDict
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..description import read_toml
+from ..description import read_text, read_toml, referenced_path
 from ..errors import ConfigError
 
 __all__ = ["Documents", "digest", "read_documents"]
@@ -68,26 +68,26 @@ def read_documents(duty_path, *, where):
     The files are parsed only; the loaders validate them (`load`).
     """
     duty_path = Path(duty_path)
-    if not duty_path.is_file():
-        raise ConfigError(f"{where}: duty-cycle file not found: {duty_path}")
-    cycle = read_toml(duty_path)
+    cycle = read_toml(duty_path, where=where, what="duty cycle")
     table = cycle.get("cycle")
     if not isinstance(table, dict) or not isinstance(table.get("robot"), str):
         raise ConfigError(f"{duty_path.name}: [cycle] robot is missing (the duty cycle must "
                           f"name its robot description)")
-    robot_path = (duty_path.parent / table["robot"]).resolve()
-    robot = read_toml(robot_path)
+    robot_path = referenced_path(duty_path, table["robot"])
+    robot = read_toml(robot_path, where=f"{duty_path.name}: [cycle] robot",
+                      what="robot description")
     urdf_rel = robot.get("robot", {}).get("arm_urdf") if isinstance(robot.get("robot"), dict) else None
     if not isinstance(urdf_rel, str):
         raise ConfigError(f"{robot_path.name}: [robot] arm_urdf is missing")
-    urdf_path = (robot_path.parent / urdf_rel).resolve()
-    if not urdf_path.is_file():
-        raise ConfigError(f"{robot_path.name}: [robot] arm_urdf: URDF file not found: {urdf_path}")
-    urdf_text = urdf_path.read_text(encoding="utf-8")
+    urdf_path = referenced_path(robot_path, urdf_rel)
+    urdf_text = read_text(urdf_path, where=f"{robot_path.name}: [robot] arm_urdf",
+                          what="URDF file")
     catalogue, cat_name = None, None
     if isinstance(table.get("catalogue"), str):
-        cat_path = (duty_path.parent / table["catalogue"]).resolve()
-        catalogue, cat_name = read_toml(cat_path), cat_path.name
+        cat_path = referenced_path(duty_path, table["catalogue"])
+        catalogue = read_toml(cat_path, where=f"{duty_path.name}: [cycle] catalogue",
+                              what="catalogue")
+        cat_name = cat_path.name
     return Documents(docs={"robot": robot, "cycle": cycle, "catalogue": catalogue},
                      names={"robot": robot_path.name, "cycle": duty_path.name,
                             "catalogue": cat_name},
