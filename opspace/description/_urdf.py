@@ -16,7 +16,7 @@ from dataclasses import dataclass
 from ..errors import ConfigError
 from ._toml import check_inertia
 
-__all__ = ["Mimic", "check_inertials", "parse_xml", "read_mimic"]
+__all__ = ["Mimic", "check_inertials", "parse_xml", "pinocchio_model", "read_mimic"]
 
 INERTIA_KEYS = ("ixx", "iyy", "izz", "ixy", "ixz", "iyz")
 
@@ -40,6 +40,18 @@ def parse_xml(text, file):
     if root.tag != "robot":
         raise ConfigError(f"{file}: the root element must be <robot>, got <{root.tag}>")
     return root
+
+
+def pinocchio_model(text, file):
+    """Pinocchio's model of a URDF text (fixed base); ConfigError naming the file
+    with the parser's first line when it does not parse."""
+    import pinocchio as pin
+
+    try:
+        return pin.buildModelFromXML(text)
+    except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
+        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise ConfigError(f"{file}: URDF does not parse ({first})") from None
 
 
 def _float(element, attr, default, where):

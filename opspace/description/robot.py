@@ -35,7 +35,9 @@ import numpy as np
 
 from ..errors import ConfigError
 from ._toml import Section, check_inertia, read_document
-from ._urdf import Mimic, check_inertials, parse_xml, read_mimic
+from ._urdf import Mimic, check_inertials, parse_xml, pinocchio_model, read_mimic
+from ._sources import read_package_paths, resolve_uri
+from ._whole import load_whole
 
 __all__ = [
     "ArmJointDrive",
@@ -150,13 +152,14 @@ class RobotDescription:
     poses: dict = field(default_factory=dict)
     arm_model: object = None  # pinocchio.Model of the arm alone (fixed base)
     mimic: dict = field(default_factory=dict)  # follower joint -> Mimic of an independent one
+    whole: object = None  # WholeForm: what a whole-robot URDF gave, None for the arm-URDF form
 
 
 # ---------------------------------------------------------------------------
 # the description
 # ---------------------------------------------------------------------------
 TOP_LEVEL = ("robot", "base", "wheel", "drive", "mount", "ground", "payload",
-             "arm_joint", "poses", "caster")
+             "arm_joint", "poses", "caster", "package_paths")
 
 
 def load_description(path, *, doc=None, urdf_text=None):
@@ -177,21 +180,34 @@ def load_description(path, *, doc=None, urdf_text=None):
     ------
     ConfigError   naming file, key, value and expectation
     """
-    path, doc = read_document(path, doc, TOP_LEVEL, ("robot", "base", "wheel", "drive", "mount"))
+    path, doc = read_document(path, doc, TOP_LEVEL, ("robot", "drive"))
     name = path.name
 
     s = Section(path, "robot", doc["robot"])
     robot_name = s.string("name")
-    urdf_rel = s.string("arm_urdf")
     tool_frame = s.string("tool_frame")
-    s.finish()
-    arm_urdf = (path.parent / urdf_rel).resolve()
+    if s.has("urdf") and s.has("arm_urdf"):
+        s.fail("urdf", "and arm_urdf exclude each other: give the whole robot's URDF (urdf) "
+                       "or the arm's alone (arm_urdf)")
+    whole = load_whole(path, doc, s, urdf_text) if s.has("urdf") else None
+    if whole is None:
+        urdf_rel = s.string("arm_urdf")
+        s.finish()
+        packages = read_package_paths(path, doc.get("package_paths", {}))
+        arm_urdf = resolve_uri(urdf_rel, packages, path.parent, f"{name}: [robot] arm_urdf").resolve()
+        for table in ("base", "wheel", "mount"):
+            if table not in doc:
+                raise ConfigError(f"{name}: table [{table}] is missing")
+        tables = {t: doc[t] for t in ("base", "wheel", "mount")}
+    else:
+        arm_urdf, urdf_text = whole.urdf, whole.arm_text
+        tables = {t: {**whole.tables[t], **doc.get(t, {})} for t in ("base", "wheel", "mount")}
 
-    base = _read_base(Section(path, "base", doc["base"]))
-    wheel = _read_wheel(Section(path, "wheel", doc["wheel"]))
+    base = _read_base(Section(path, "base", tables["base"]))
+    wheel = _read_wheel(Section(path, "wheel", tables["wheel"]))
     drive = _read_drive(Section(path, "drive", doc["drive"]))
 
-    s = Section(path, "mount", doc["mount"])
+    s = Section(path, "mount", tables["mount"])
     mount_xyz = s.vector("xyz", 3, unit="m")
     mount_rpy = s.vector("rpy", 3, (0.0, 0.0, 0.0), unit="rad")
     s.finish()
@@ -204,7 +220,7 @@ def load_description(path, *, doc=None, urdf_text=None):
     if "payload" in doc:
         payload = read_payload(Section(path, "payload", doc["payload"]))
 
-    casters = _read_casters(path, doc.get("caster", []), base)
+    casters = _read_casters(path, doc.get("caster", []), base, whole)
     arm_model, mimic = load_arm(arm_urdf, where=f"{name}: [robot] arm_urdf", text=urdf_text)
     _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
     arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
@@ -214,7 +230,8 @@ def load_description(path, *, doc=None, urdf_text=None):
         path=path, name=robot_name, arm_urdf=arm_urdf, tool_frame=tool_frame,
         base=base, wheel=wheel, drive=drive, mount_xyz=mount_xyz,
         mount_rpy=mount_rpy, casters=casters, ground_friction=friction,
-        payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic)
+        payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic,
+        whole=whole and _sources(whole, doc, path.name))
 
 
 def _read_base(s):
@@ -277,18 +294,44 @@ def read_payload(s):
     return payload
 
 
-def _read_casters(path, entries, base):
+def _read_casters(path, entries, base, whole=None):
+    """[[caster]] entries: position = [x, y], or (whole-robot form) link = a URDF
+    link whose collision centre or origin is the contact."""
     if not isinstance(entries, list):
         raise ConfigError(f"{path.name}: [[caster]] must be an array of tables, got {entries!r}")
     casters = []
     for i, entry in enumerate(entries):
         s = Section(path, f"caster {i + 1}", entry)
-        x, y = s.vector("position", 2, unit="m")
+        if whole is not None and s.has("link") and not s.has("position"):
+            link = s.string("link")
+            if link not in whole.contacts:
+                s.fail("link", f"'{link}' is not a link of {whole.urdf.name}")
+            x, y = whole.contacts[link]
+        else:
+            x, y = s.vector("position", 2, unit="m")
         s.finish()
         if abs(x) < 1e-9 and abs(abs(y) - base.half_track) < 1e-9:
             s.fail("position", f"coincides with a drive wheel contact, got {[x, y]}")
         casters.append((x, y))
     return tuple(casters)
+
+
+def _sources(whole, doc, name):
+    """The whole-robot form's record with the TOML's overrides marked as given,
+    and each [[caster]] link's contact listed."""
+    from dataclasses import replace
+    derived = []
+    for d in whole.derived:
+        table, _, key = d.key.strip("[").partition("] ")
+        if key and key in doc.get(table, {}):
+            d = replace(d, value=f"{doc[table][key]} (given)", source=f"given in {name}")
+        derived.append(d)
+    for i, entry in enumerate(doc.get("caster", [])):
+        if "link" in entry and "position" not in entry:
+            x, y = whole.contacts[entry["link"]]
+            derived.append(type(d)(f"[[caster]] {i + 1}", f"[{x:.6g}, {y:.6g}] m",
+                                   f"below link '{entry['link']}' (collision centre or origin)"))
+    return replace(whole, derived=tuple(derived))
 
 
 def load_arm_urdf(urdf_path, *, where, text=None):
@@ -302,19 +345,13 @@ def load_arm(urdf_path, *, where, text=None):
     """(pinocchio.Model of the arm, {follower: Mimic}) from the arm URDF: see
     `load_arm_urdf`; the mimic joints are parsed as ordinary joints by Pinocchio
     and tied to their leaders by the model's reduction map."""
-    import pinocchio as pin
-
     urdf_path = Path(urdf_path)
     if text is None:
         if not urdf_path.is_file():
             raise ConfigError(f"{where}: URDF file not found: {urdf_path}")
         text = urdf_path.read_text(encoding="utf-8")
     root = parse_xml(text, urdf_path.name)
-    try:
-        arm = pin.buildModelFromXML(text)
-    except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
-        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise ConfigError(f"{urdf_path.name}: URDF does not parse ({first})") from None
+    arm = pinocchio_model(text, urdf_path.name)
     if arm.njoints < 2:
         raise ConfigError(f"{urdf_path.name}: the arm has no moving joint")
     for jid in range(1, arm.njoints):
