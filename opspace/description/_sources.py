@@ -63,16 +63,18 @@ def urdf_source(path, uri, packages, args, where):
 
 
 @contextlib.contextmanager
-def _find_through(packages, file):
+def _find_through(packages, file, failures):
     """xacro's `$(find pkg)` and `find('pkg')` answered from `packages` while
-    the block runs (xacro looks packages up in a robot software stack's index)."""
+    the block runs (xacro looks packages up in a robot software stack's index);
+    an unknown package's ConfigError is also put in `failures` (xacro wraps it)."""
     from xacro import substitution_args as sa
 
     def find(pkg):
         if pkg not in packages:
             known = ", ".join(sorted(packages)) or "none"
-            raise ConfigError(f"{file.name}: $(find {pkg}): package '{pkg}' is not in "
-                              f"[package_paths] (known packages: {known})")
+            failures.append(ConfigError(f"{file.name}: $(find {pkg}): package '{pkg}' is not "
+                                        f"in [package_paths] (known packages: {known})"))
+            raise failures[-1]
         return str(packages[pkg])
 
     saved = sa._eval_find, sa._eval_dict["find"]
@@ -91,12 +93,13 @@ def expand_xacro(file, packages, args=None):
     except ImportError:
         raise ConfigError(f"{file.name}: expanding xacro needs the optional 'xacro' package "
                           f"(pip install 'opspace[xacro]')") from None
+    failures = []
     try:
-        with _find_through(packages, file):
+        with _find_through(packages, file, failures):
             doc = xacro.process_file(str(file), mappings=dict(args or {}))
-    except ConfigError:
-        raise
     except Exception as exc:   # xacro raises its own, XML and eval errors alike
+        if failures:
+            raise failures[0] from None
         text = " ".join(str(exc).split()) or type(exc).__name__
         where = " ".join(str(f) for f in (getattr(xacro, "filestack", None) or [])[-1:])
         where = f" (in {Path(where).name})" if where and Path(where).name != file.name else ""
