@@ -248,7 +248,7 @@ class MobileManipulator:
         elif isinstance(arm, str):
             qa = self.pose(arm)
         else:
-            qa = self._arm_values("arm", arm)
+            qa = self.arm_vector("arm", arm)
         q = np.empty(self.model.nq)
         q[:4] = (x, y, math.cos(theta), math.sin(theta))
         q[4:6] = phi
@@ -260,7 +260,7 @@ class MobileManipulator:
                 q[iq:iq + 2] = (math.cos(value), math.sin(value))
         return q
 
-    def _arm_values(self, name, values):
+    def arm_vector(self, name, values):
         """`values` as a finite vector (n_arm,); the message names the joints."""
         x = np.asarray(values, dtype=float)
         joints = ", ".join(self.arm_joint_names)

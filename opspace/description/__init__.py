@@ -8,6 +8,7 @@
 
 from .catalogue import Catalogue, Gearbox, Motor, load_catalogue
 from .duty import DutyCycle, Segment, load_duty_cycle
+from ._sources import expand_xacro
 from ._toml import Section, check_inertia, inertia_matrix, read_toml
 from .robot import (ArmJointDrive, BaseSpec, DriveSpec, Payload, RobotDescription, WheelSpec,
                     Mimic, arm_joint_names, arm_position_limits, independent_joint_names,
@@ -32,6 +33,7 @@ __all__ = [
     "load_arm",
     "Mimic",
     "check_inertia",
+    "expand_xacro",
     "inertia_matrix",
     "load_arm_urdf",
     "load_catalogue",

@@ -85,9 +85,10 @@ def _find_through(packages, file, failures):
         sa._eval_find, sa._eval_dict["find"] = saved
 
 
-def expand_xacro(file, packages, args=None):
+def expand_xacro(file, packages, args=None, *, pretty=False):
     """The URDF text that xacro makes of `file` with `args` ({name: value} for
-    ``$(arg name)``); ConfigError naming the file and xacro's message."""
+    ``$(arg name)``), indented when `pretty`; ConfigError naming the file and
+    xacro's message.  `packages`: {package: directory} for ``$(find pkg)``."""
     try:
         import xacro
     except ImportError:
@@ -104,7 +105,7 @@ def expand_xacro(file, packages, args=None):
         where = " ".join(str(f) for f in (getattr(xacro, "filestack", None) or [])[-1:])
         where = f" (in {Path(where).name})" if where and Path(where).name != file.name else ""
         raise ConfigError(f"{file.name}: xacro expansion failed{where}: {text}") from None
-    return doc.toxml()
+    return doc.toprettyxml(indent="  ") if pretty else doc.toxml()
 
 
 def mesh_files(root, packages, folder):

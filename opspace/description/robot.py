@@ -11,7 +11,11 @@ so that the tool frame, joint names and link inertias can be checked.
 
 Keys (SI units; every key is documented in the README's reference section)::
 
-    [robot]  name, arm_urdf, tool_frame
+    [robot]  name, tool_frame, and either arm_urdf (the arm alone) or
+             urdf, wheel_joints, arm_root = none, xacro_args = {} (the whole
+             robot: [base], [wheel], [mount] are then derived, see _whole, and
+             any key given in them overrides the derived value)
+    [package_paths] <package> = <directory>
     [base]   mass, com, inertia, half_track, wheel_radius,
              rolling_resistance = 0, top_speed = inf, footprint = none
     [wheel]  mass, spin_inertia, diameter_inertia
@@ -22,7 +26,7 @@ Keys (SI units; every key is documented in the README's reference section)::
     [payload] mass, com = [0, 0, 0], inertia = [0, 0, 0, 0, 0, 0]
     [arm_joint.<urdf joint>] coulomb, viscous, rotor_inertia = 0, gear_ratio = 1
     [poses]  <name> = [arm joint values]
-    [[caster]] position = [x, y]
+    [[caster]] position = [x, y]   (or link = <URDF link>, whole-robot form)
 """
 
 from __future__ import annotations
