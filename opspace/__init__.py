@@ -21,6 +21,8 @@ from .simulate import SimulationError, SimulationResult, run_scenario, simulate 
 from . import sweep  # noqa: E402
 from .sweep import load_sweep, run_sweep  # noqa: E402
 from .sizing import SizingResult, size  # noqa: E402
+from . import limits  # noqa: E402
+from .limits import MotionLimits, motion_limits, motion_limits_batch  # noqa: E402
 
 __version__ = "0.1.0"
 
@@ -45,12 +47,16 @@ __all__ = [
     "joint_space",
     "JointSpaceTerms",
     "kinetic_energy",
+    "limits",
     "load_catalogue",
     "load_description",
     "load_duty_cycle",
     "load_robot",
     "load_sweep",
     "MobileManipulator",
+    "motion_limits",
+    "motion_limits_batch",
+    "MotionLimits",
     "ModelError",
     "OperationalSpaceController",
     "Payload",

@@ -43,8 +43,9 @@ def test_longitudinal_load_transfer_gillespie(tmp_path, a):
     # (Gillespie, Fundamentals of Vehicle Dynamics, 1992, ch. 2), with l_f, l_r the
     # COM's distances to the front (drive) and rear (caster) lines, h its height.
     # Gillespie's rigid-vehicle form leaves out the spin angular momentum of the
-    # wheels; the moment balance about the COM adds its rate 2 J_s a / r (pitch,
-    # carried by a load shift ∓ 2 J_s a / (r L) between the lines; derived here).
+    # wheels and motor rotors; the moment balance about the COM adds its rate
+    # 2 (J_s + J_m G) a / r (pitch, carried by a load shift ∓ 2 (J_s + J_m G) a / (r L)
+    # between the lines; derived here; rotors turning with their wheels).
     robot = two_line_robot(tmp_path)
     q = robot.configuration(arm=[0.3, -0.4])
     wr, wl = robot.wheel_rates(1.0, 0.0)
@@ -57,7 +58,8 @@ def test_longitudinal_load_transfer_gillespie(tmp_path, a):
     L, l_f, l_r = 0.35, 0.0 - xc, xc + 0.35
     N = track.loads.N[0]
     front, rear = N[0] + N[1], N[2] + N[3]
-    spin = 2 * 0.006 * (a / 0.1) / L          # J_s = 0.006 kg m², r = 0.1 m (base_doc)
+    # J_s = 0.006 kg m², J_m = 2e-5 kg m², G = 20, r = 0.1 m (base_doc)
+    spin = 2 * (0.006 + 2e-5 * 20) * (a / 0.1) / L
     assert front == pytest.approx(m * (G * l_r - a * h) / L - spin, rel=1e-9)
     assert rear == pytest.approx(m * (G * l_f + a * h) / L + spin, rel=1e-9)
     # and the longitudinal ground force is m a (Newton)
@@ -104,3 +106,23 @@ def test_turning_lateral_force_is_centripetal(demo):
     th = demo.base_pose(q0)[2]
     R_T = np.array([[math.cos(th), math.sin(th)], [-math.sin(th), math.cos(th)]])
     np.testing.assert_allclose(w.force[0, :2], demo.total_mass() * R_T @ acc[:2], rtol=1e-5, atol=1e-5)
+
+
+def test_rotor_spin_momentum_equals_a_wheel_of_the_same_momentum(tmp_path, rng):
+    # A rotor of inertia J_m turning at G φ̇ about an axis parallel to the axle
+    # carries the angular momentum of a wheel with J_m G more spin inertia; the
+    # ground wrench of robot A (wheel J_s, rotor J_m) must equal that of robot B
+    # (wheel J_s + J_m G, no rotor), where Pinocchio computes the wheel's momentum
+    # as a rigid body (accelerating and turning: pitch and gyroscopic roll).
+    J_s, J_m, G = 0.005, 2e-5, 30.0   # J_s + J_m G <= 2 x diameter_inertia (0.0035)
+    a = make_robot(tmp_path, two_link_urdf(), base_doc(
+        wheel__spin_inertia=J_s, drive__rotor_inertia=J_m, drive__gear_ratio=G))
+    (tmp_path / "b").mkdir()
+    b = make_robot(tmp_path / "b", two_link_urdf(), base_doc(
+        wheel__spin_inertia=J_s + J_m * G, drive__rotor_inertia=0.0, drive__gear_ratio=G))
+    q = a.configuration(arm=[0.3, -0.4])
+    nu, nu_dot = rng.normal(size=(2, 3, a.nv)) * 3
+    qs = np.tile(q, (3, 1))
+    wa, wb = ground_wrench(a, qs, nu, nu_dot), ground_wrench(b, qs, nu, nu_dot)
+    np.testing.assert_allclose(wa.moment, wb.moment, rtol=1e-12, atol=1e-10)
+    np.testing.assert_allclose(wa.force, wb.force, rtol=1e-12, atol=1e-10)

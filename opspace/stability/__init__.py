@@ -8,7 +8,8 @@
 
 from .contacts import (GRAVITY, ContactLoads, StoppingLimits, SupportPolygon, normal_loads,
                        stopping_limits, support_polygon, tip_angle, traction_use, zmp)
-from .wrench import GroundWrench, StabilityTrack, ground_wrench, stability_track, tyre_forces
+from .wrench import (GroundWrench, StabilityTrack, ground_wrench, stability_figures,
+                     stability_track, tyre_forces)
 
 __all__ = [
     "GRAVITY",
@@ -19,6 +20,7 @@ __all__ = [
     "SupportPolygon",
     "ground_wrench",
     "normal_loads",
+    "stability_figures",
     "stability_track",
     "stopping_limits",
     "support_polygon",

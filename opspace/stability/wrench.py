@@ -13,9 +13,19 @@ frame).  Pinocchio's `computeCentroidalMomentumTimeVariation` gives
 moment about the base-frame origin o (on the ground below the axle middle) is
 n_o = n_G + (c − o) × f, and both are rotated into base axes.
 
-Neglected: the gyroscopic reaction of the motor rotors on the chassis (the
-armature terms have no body in the tree): about J_m G φ̈ N·m per wheel, of the
-order of 10⁻² N·m for the demo, a ZMP shift of tens of micrometres.
+The motor rotors have no body in the tree (their reflected inertia is the
+armature of the wheel joints, which carries their energy but not their
+angular momentum).  Their spin momentum is added here: each rotor spins about
+an axis parallel to the wheel axle (base y) at G φ̇_i relative to the chassis,
+so with the chassis turning at ω about z its momentum H_i = J_m G φ̇_i ŷ has
+the rate (Euler's equation for a body in a rotating frame; Goldstein, Classical
+Mechanics, 1980, § 4-9, recalled from memory)
+
+    Ḣ_i = J_m G (φ̈_i ŷ − ω φ̇_i x̂)
+
+which the ground must supply: n += Σ_i Ḣ_i (a couple, the same about any
+point).  Assumed: the rotor turns the same way as its wheel (an in-line or
+planetary gearhead); a reversing gear stage flips the sign of this term.
 """
 
 from __future__ import annotations
@@ -27,7 +37,8 @@ import pinocchio as pin
 
 from .contacts import ContactLoads, normal_loads, support_polygon, traction_use, zmp
 
-__all__ = ["GroundWrench", "StabilityTrack", "ground_wrench", "stability_track", "tyre_forces"]
+__all__ = ["GroundWrench", "StabilityTrack", "ground_wrench", "stability_figures",
+           "stability_track", "tyre_forces"]
 
 
 def tyre_forces(robot, qs, nus, nu_dots, Q):
@@ -75,20 +86,30 @@ def ground_wrench(robot, qs, nus, nu_dots):
         raise ValueError(f"`qs`, `nus`, `nu_dots` must have shapes (n, {model.nq}), (n, {robot.nv}), "
                          f"(n, {robot.nv}); got {qs.shape}, {nus.shape}, {nu_dots.shape}")
     m = robot.total_mass()
-    g_vec = model.gravity.linear.copy()
     V, A = nus.dot(S.T), nu_dots.dot(S.T)
-    force, moment, com = np.empty((n, 3)), np.empty((n, 3)), np.empty((n, 3))
-    for i in range(n):
-        dhg = pin.computeCentroidalMomentumTimeVariation(model, data, qs[i], V[i], A[i])
-        c_w = data.com[0]
-        f_w = dhg.linear - m * g_vec
-        x, y, cth, sth = qs[i, :4]
-        r = c_w - (x, y, 0.0)
-        n_w = dhg.angular + (r[1] * f_w[2] - r[2] * f_w[1], r[2] * f_w[0] - r[0] * f_w[2],
-                             r[0] * f_w[1] - r[1] * f_w[0])   # + r × f
-        R_T = np.array([[cth, sth, 0.0], [-sth, cth, 0.0], [0.0, 0.0, 1.0]])
-        force[i], moment[i], com[i] = R_T.dot(f_w), R_T.dot(n_w), R_T.dot(r)
-    return GroundWrench(force, moment, com)
+    dh, c_w = np.empty((n, 6)), np.empty((n, 3))
+    for i in range(n):           # only the Pinocchio call per state; the rest vectorised
+        dh[i] = pin.computeCentroidalMomentumTimeVariation(model, data, qs[i], V[i], A[i]).vector
+        c_w[i] = data.com[0]
+    f_w = dh[:, :3] - m * model.gravity.linear
+    r = c_w.copy()
+    r[:, :2] -= qs[:, :2]
+    n_w = dh[:, 3:] + np.cross(r, f_w)
+    cth, sth = qs[:, 2:3], qs[:, 3:4]
+
+    def to_base(x):              # R(θ)ᵀ x, row by row
+        return np.column_stack([cth[:, 0] * x[:, 0] + sth[:, 0] * x[:, 1],
+                                -sth[:, 0] * x[:, 0] + cth[:, 0] * x[:, 1], x[:, 2]])
+
+    moment = to_base(n_w)
+    # rotor spin momentum rate, base axes (module docstring): J_m G (Σφ̈ ŷ − ω Σφ̇ x̂)
+    d = robot.description.drive
+    k = d.rotor_inertia * d.gear_ratio
+    if k:
+        omega = V[:, 2]
+        moment[:, 0] -= k * omega * (nus[:, 0] + nus[:, 1])
+        moment[:, 1] += k * (nu_dots[:, 0] + nu_dots[:, 1])
+    return GroundWrench(to_base(f_w), moment, to_base(r))
 
 
 @dataclass(frozen=True)
@@ -114,23 +135,43 @@ class StabilityTrack:
 def stability_track(robot, qs, nus, nu_dots, wheel_force_x, *, mu=None):
     """ZMP, tip-over margin, normal loads and traction use over a motion.
 
-    The lateral force f_y of the ground wrench is carried by the drive wheels
-    alone (casters swivel freely), shared in proportion to their normal loads;
-    the longitudinal force of drive wheel i is `wheel_force_x[:, i]` (from its
-    torque balance, computed by the caller).  Traction use is
-    sqrt(F_x² + F_y²) / (μ N) (friction circle; Coulomb friction).
+    The ground wrench of `ground_wrench` at each state, then `stability_figures`.
 
     Parameters
     ----------
     wheel_force_x : (n, 2) N, longitudinal ground force on each drive wheel
     mu : ground friction coefficient (default: the description's)
     """
-    mu = robot.ground_friction if mu is None else mu
     w = ground_wrench(robot, qs, nus, nu_dots)
     if np.any(w.force[:, 2] <= 0):
         i = int(np.argmax(w.force[:, 2] <= 0))
         raise ValueError(f"the ground's normal force is {w.force[i, 2]:.3g} N <= 0 at sample {i}: "
                          f"the robot would leave the ground")
+    return stability_figures(robot, w, wheel_force_x, mu=mu)
+
+
+def stability_figures(robot, wrench, wheel_force_x, *, mu=None):
+    """ZMP, tip-over margin, normal loads and traction use from ground wrenches.
+
+    The lateral force f_y of the ground wrench is carried by the drive wheels
+    alone (casters swivel freely), shared in proportion to their normal loads;
+    the longitudinal force of drive wheel i is `wheel_force_x[:, i]` (from its
+    torque balance, computed by the caller).  Traction use is
+    sqrt(F_x² + F_y²) / (μ N) (friction circle; Coulomb friction).  The normal
+    loads come from `normal_loads` (the description's load model).
+
+    Parameters
+    ----------
+    wrench : GroundWrench with force[:, 2] > 0 (n states)
+    wheel_force_x : (n, 2) N, longitudinal ground force on each drive wheel
+    mu : ground friction coefficient (default: the description's)
+
+    Returns
+    -------
+    StabilityTrack
+    """
+    mu = robot.ground_friction if mu is None else mu
+    w = wrench
     P = np.array([c.position for c in robot.contacts])
     polygon = support_polygon(P)
     p = zmp(w.force, w.moment)
