@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 import opspace
-from conftest import REPO
+from conftest import REPO, urdf_elements
 
 WREN = REPO / "models" / "wren"
 
@@ -24,21 +24,11 @@ def wren():
     return opspace.load_robot(WREN / "robot.toml")
 
 
-def _elements(text):
-    def value(v):
-        try:
-            return tuple(round(float(x), 12) for x in v.split())
-        except ValueError:
-            return v
-    return [(el.tag, {k: value(v) for k, v in el.attrib.items()})
-            for el in ET.fromstring(text).iter()]
-
-
 def test_shipped_urdf_is_the_xacro_expansion(tmp_path):
     pytest.importorskip("xacro")
     from opspace.description import expand_xacro
     text = expand_xacro(WREN / "urdf" / "wren.urdf.xacro", {"wren_description": WREN})
-    assert _elements(text) == _elements((WREN / "urdf" / "wren.urdf").read_text())
+    assert urdf_elements(text) == urdf_elements((WREN / "urdf" / "wren.urdf").read_text())
     doc = opspace.description.read_toml(WREN / "robot.toml")
     doc["robot"]["urdf"] = "package://wren_description/urdf/wren.urdf.xacro"
     from_xacro = opspace.load_robot(WREN / "robot.toml", doc=doc)

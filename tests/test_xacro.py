@@ -9,13 +9,11 @@ model (structure, inertials, and the mass matrix at a state).
 
 from __future__ import annotations
 
-import xml.etree.ElementTree as ET
-
 import numpy as np
 import pytest
 
 import opspace
-from conftest import base_doc, run_cli_module, write_toml
+from conftest import base_doc, run_cli_module, urdf_elements, write_toml
 
 pytest.importorskip("xacro")
 
@@ -87,17 +85,6 @@ def hand_expanded(arm_mass=1.5):
             '<link name="tool"/></robot>')
 
 
-def canonical(text):
-    """Elements as (tag, attributes with numbers parsed) in document order."""
-    def value(v):
-        try:
-            return tuple(round(float(x), 12) for x in v.split())
-        except ValueError:
-            return v
-    return [(el.tag, {k: value(v) for k, v in el.attrib.items()})
-            for el in ET.fromstring(text).iter() if el.tag != "robot"]
-
-
 def write_package(tmp_path, main=MAIN):
     pkg = tmp_path / "src" / "rover_pkg"
     (pkg / "urdf").mkdir(parents=True)
@@ -117,7 +104,7 @@ def test_macro_built_robot_equals_the_hand_expanded_urdf(tmp_path, rng):
     from opspace.description._sources import expand_xacro
     packages = {"rover_pkg": tmp_path / "src" / "rover_pkg"}
     text = expand_xacro(tmp_path / "src/rover_pkg/urdf/rover.urdf.xacro", packages)
-    assert canonical(text) == canonical(hand_expanded())
+    assert urdf_elements(text) == urdf_elements(hand_expanded())
     macro = opspace.load_robot(path)
     doc["robot"]["urdf"] = "rover.urdf"
     hand = opspace.load_robot(write_toml(tmp_path / "hand.toml", doc))
