@@ -11,12 +11,14 @@ an independent implementation of the same composite.
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 import pinocchio as pin
 import pytest
 
 import opspace
+from opspace.cli import main as cli_main
 from conftest import base_doc, run_cli_module, two_link_urdf, urdf, urdf_joint, urdf_link, write_toml
 
 H = 0.1          # axle height above the ground = wheel radius, m
@@ -164,7 +166,7 @@ def test_whole_form_has_the_dynamics_of_the_arm_form(tmp_path, rng):
             np.testing.assert_allclose(x, y, rtol=1e-12, atol=1e-12)
 
 
-def test_overrides_and_check_prints_sources(tmp_path):
+def test_overrides_and_check_prints_sources(tmp_path, capsys):
     doc = whole_doc()
     doc["base"] = {"mass": 31.0, "wheel_radius": 0.11}
     doc["mount"] = {"xyz": [0.1, 0.0, 0.4]}
@@ -173,14 +175,14 @@ def test_overrides_and_check_prints_sources(tmp_path):
     assert d.base.mass == 31.0 and d.base.wheel_radius == 0.11 and d.mount_xyz == (0.1, 0.0, 0.4)
     # the ground moves with the given radius: the root link is now 0.11 m up
     np.testing.assert_allclose(d.base.com, hand_chassis()[1] + [0, 0, 0.01], atol=1e-14)
-    out = run_cli_module("check", str(tmp_path / "robot.toml"))
-    assert out.returncode == 0, out.stderr
+    assert cli_main(["check", str(tmp_path / "robot.toml")]) == 0
+    stdout = capsys.readouterr().out
     for line in ("[base] mass", "given in robot.toml", "mass-weighted mean of the chassis links'",
                  "base_link, battery, arm_plate, camera", 
                  "moving joints held at zero: caster_swivel", "half the distance between the "
                  "origins of joints 'wheel_r_joint' and 'wheel_l_joint'", "[[caster]] 1",
                  "below link 'caster_wheel'"):
-        assert line in out.stdout, line
+        assert line in stdout, line
 
 
 @pytest.mark.parametrize("change, expect", [
@@ -220,3 +222,22 @@ def test_package_paths_and_cli_one_line(tmp_path):
     out = run_cli_module("check", str(tmp_path / "bad.toml"))
     assert out.returncode == 2 and out.stdout == ""
     assert out.stderr.count("\n") == 1 and "package 'other_pkg'" in out.stderr
+
+
+def test_world_link_above_a_floating_base_and_massless_wheels(tmp_path):
+    """A "world" root with a floating joint to the base is skipped; wheels whose
+    links are placeholders need [wheel] given (a message, not a zero mass)."""
+    text = whole_urdf().replace('<link name="base_link">', '<link name="world"/><joint '
+                                'name="float" type="floating"><parent link="world"/><child '
+                                'link="base_link"/></joint><link name="base_link">')
+    robot = load_whole(tmp_path, text)
+    np.testing.assert_allclose(robot.description.base.com, hand_chassis()[1], atol=1e-14)
+    text = re.sub(r'(<link name="wheel_[rl]">)<inertial>.*?</inertial>',
+                  r'\1<inertial><mass value="0"/><inertia ixx="0" iyy="0" izz="0" ixy="0" '
+                  r'ixz="0" iyz="0"/></inertial>', whole_urdf())
+    with pytest.raises(opspace.ConfigError, match=r"robot\.toml: the wheel links of robot\.urdf "
+                                                  r"have no mass: give \[wheel\] mass"):
+        load_whole(tmp_path, text)
+    doc = whole_doc()
+    doc["wheel"] = {"mass": 1.5, "spin_inertia": 0.006, "diameter_inertia": 0.0035}
+    assert load_whole(tmp_path, text, doc).description.wheel.mass == 1.5

@@ -61,3 +61,16 @@ def test_sizing_runs_on_the_tricycle():
     result = opspace.size(WREN / "fetch.toml", search=False)
     assert result.status in ("pass", "fail")
     assert result.robot.description.whole is not None
+
+
+def test_a_sweep_over_a_derived_value(tmp_path):
+    """The sweep's documents carry the whole robot's URDF text (xacro expanded)
+    to its workers, where the files are not: a point that sets [base] mass,
+    which the URDF otherwise gives, moves the robot's mass by the same amount."""
+    from opspace.sweep.docs import load_robot_doc, read_documents
+    documents = read_documents(WREN / "fetch.toml", where="test")
+    assert documents.urdf_name == "wren.urdf"
+    base = load_robot_doc(documents, documents.docs["robot"])
+    doc = dict(documents.docs["robot"], base=dict(documents.docs["robot"]["base"], mass=27.5))
+    heavier = load_robot_doc(documents, doc)
+    assert heavier.total_mass() - base.total_mass() == pytest.approx(27.5 - 23.5, rel=1e-12)

@@ -12,7 +12,7 @@ from ._sources import expand_xacro
 from ._toml import Section, check_inertia, inertia_matrix, read_toml
 from .robot import (ArmJointDrive, BaseSpec, DriveSpec, Payload, RobotDescription, WheelSpec,
                     Mimic, arm_joint_names, arm_position_limits, independent_joint_names,
-                    load_arm, load_arm_urdf, load_description, read_payload)
+                    load_arm, load_arm_urdf, load_description, read_payload, robot_urdf)
 
 __all__ = [
     "ArmJointDrive",
@@ -41,4 +41,5 @@ __all__ = [
     "load_description",
     "read_payload",
     "read_toml",
+    "robot_urdf",
 ]

@@ -9,7 +9,11 @@ is folded into one relation to the independent joint at its end.
 
 from __future__ import annotations
 
+import contextlib
 import math
+import os
+import sys
+import tempfile
 import xml.etree.ElementTree as ET
 from dataclasses import dataclass
 
@@ -47,11 +51,33 @@ def pinocchio_model(text, file):
     with the parser's first line when it does not parse."""
     import pinocchio as pin
 
-    try:
-        return pin.buildModelFromXML(text)
-    except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
-        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise ConfigError(f"{file}: URDF does not parse ({first})") from None
+    with _stderr_caught() as said:   # the URDF parser writes its reasons to fd 2
+        try:
+            return pin.buildModelFromXML(text)
+        except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
+            error = exc
+    first = str(error).strip().splitlines()[0] if str(error).strip() else type(error).__name__
+    reasons = [line.split(":", 1)[1].strip() for line in said()
+               if line.strip().startswith("Error:")]
+    raise ConfigError(f"{file}: URDF does not parse ({first}"
+                      + (f": {reasons[0]}" if reasons else "") + ")")
+
+
+@contextlib.contextmanager
+def _stderr_caught():
+    """Redirect the process's file descriptor 2 (C++ libraries write there) to a
+    temporary file while the block runs; yields a callable returning its lines."""
+    sys.stderr.flush()
+    saved, lines = os.dup(2), []
+    with tempfile.TemporaryFile(mode="w+b") as tmp:
+        os.dup2(tmp.fileno(), 2)
+        try:
+            yield lambda: lines
+        finally:
+            os.dup2(saved, 2)
+            os.close(saved)
+            tmp.seek(0)
+            lines += tmp.read().decode("utf-8", "replace").splitlines()
 
 
 def _float(element, attr, default, where):

@@ -113,6 +113,9 @@ class WholeRobot:
         if len(roots) != 1:
             raise ConfigError(f"{file}: the URDF must have one root link, got {roots}")
         self.root = roots[0]
+        while len(self.children[self.root]) == 1 and \
+                self.children[self.root][0].kind in ("floating", "planar"):
+            self.root = self.children[self.root][0].child   # a "world" link above the base
         self.X = {}                                 # root frame <- link frame
         stack = [(self.root, np.eye(4))]
         while stack:
@@ -374,7 +377,7 @@ def load_whole(path, doc, s, urdf_text=None):
     tables, derived = _derive(tree, X_B, body, passive, right, left, arm_root, radius, r_src)
     frames = {n: (tuple((X_B @ tree.X[n])[:3, 3]), (X_B @ tree.X[n])[:3, :3])
               for n in chassis if n != arm_root and n not in between}
-    contacts = {n: _contact(tree, n, X_B) for n in tree.links}
+    contacts = {n: _contact(tree, n, X_B) for n in tree.X}
     return WholeForm(file, tables, tuple(derived), arm_text(tree, entry, arm_root, between,
                                                              root.get("name", "arm")),
                      frames, tuple(mesh_files(root, packages, file.parent)), contacts)

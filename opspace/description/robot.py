@@ -40,7 +40,7 @@ import numpy as np
 from ..errors import ConfigError
 from ._toml import Section, check_inertia, read_document
 from ._urdf import Mimic, check_inertials, parse_xml, pinocchio_model, read_mimic
-from ._sources import read_package_paths, resolve_uri
+from ._sources import read_package_paths, resolve_uri, urdf_source
 from ._whole import load_whole
 
 __all__ = [
@@ -56,6 +56,7 @@ __all__ = [
     "RobotDescription",
     "WheelSpec",
     "load_description",
+    "robot_urdf",
 ]
 
 #: ground friction coefficient used when [ground] friction is absent
@@ -206,6 +207,10 @@ def load_description(path, *, doc=None, urdf_text=None):
     else:
         arm_urdf, urdf_text = whole.urdf, whole.arm_text
         tables = {t: {**whole.tables[t], **doc.get(t, {})} for t in ("base", "wheel", "mount")}
+        for table, what in (("base", "chassis links"), ("wheel", "wheel links")):
+            if tables[table]["mass"] <= 0.0:   # placeholders only: nothing to derive from
+                raise ConfigError(f"{name}: the {what} of {whole.urdf.name} have no mass: "
+                                  f"give [{table}] mass and its inertia in {name}")
 
     base = _read_base(Section(path, "base", tables["base"]))
     wheel = _read_wheel(Section(path, "wheel", tables["wheel"]))
@@ -236,6 +241,30 @@ def load_description(path, *, doc=None, urdf_text=None):
         mount_rpy=mount_rpy, casters=casters, ground_friction=friction,
         payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic,
         whole=whole and _sources(whole, doc, path.name))
+
+
+def robot_urdf(path, doc):
+    """(file name, text) of the URDF a parsed robot description names: its
+    `[robot] arm_urdf`, or its whole robot's `[robot] urdf` (xacro expanded,
+    `package://` through `[package_paths]`).  For callers that carry the text
+    to where the files are not (sweep workers); ConfigError naming file and key.
+    """
+    path = Path(path)
+    table = doc.get("robot") if isinstance(doc.get("robot"), dict) else {}
+    key = "urdf" if "urdf" in table else "arm_urdf"
+    uri = table.get(key)
+    if not isinstance(uri, str):
+        raise ConfigError(f"{path.name}: [robot] arm_urdf is missing")
+    where = f"{path.name}: [robot] {key}"
+    packages = read_package_paths(path, doc.get("package_paths", {}))
+    if key == "urdf":
+        args = table.get("xacro_args", {})
+        file, text = urdf_source(path, uri, packages, args if isinstance(args, dict) else {}, where)
+        return file.name, text
+    file = resolve_uri(uri, packages, path.parent, where).resolve()
+    if not file.is_file():
+        raise ConfigError(f"{where}: URDF file not found: {file}")
+    return file.name, file.read_text(encoding="utf-8")
 
 
 def _read_base(s):

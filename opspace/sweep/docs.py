@@ -22,6 +22,7 @@ from collections import OrderedDict
 from dataclasses import dataclass
 from pathlib import Path
 
+from ..description import robot_urdf
 from ..description._toml import read_toml
 from ..errors import ConfigError
 
@@ -43,7 +44,8 @@ class Documents:
 
     docs: root ("robot", "cycle", "catalogue") -> dict, the catalogue None
     when the duty cycle names none; names: root -> the base file's name;
-    urdf_name, urdf_text: the arm URDF; urdf_digest: SHA-256 of its text.
+    urdf_name, urdf_text: the arm URDF, or the whole robot's (xacro expanded);
+    urdf_digest: SHA-256 of its text.
     """
 
     docs: dict
@@ -75,13 +77,7 @@ def read_documents(duty_path, *, where):
                           f"name its robot description)")
     robot_path = (duty_path.parent / table["robot"]).resolve()
     robot = read_toml(robot_path)
-    urdf_rel = robot.get("robot", {}).get("arm_urdf") if isinstance(robot.get("robot"), dict) else None
-    if not isinstance(urdf_rel, str):
-        raise ConfigError(f"{robot_path.name}: [robot] arm_urdf is missing")
-    urdf_path = (robot_path.parent / urdf_rel).resolve()
-    if not urdf_path.is_file():
-        raise ConfigError(f"{robot_path.name}: [robot] arm_urdf: URDF file not found: {urdf_path}")
-    urdf_text = urdf_path.read_text(encoding="utf-8")
+    urdf_name, urdf_text = robot_urdf(robot_path, robot)   # arm or whole robot (xacro expanded)
     catalogue, cat_name = None, None
     if isinstance(table.get("catalogue"), str):
         cat_path = (duty_path.parent / table["catalogue"]).resolve()
@@ -89,7 +85,7 @@ def read_documents(duty_path, *, where):
     return Documents(docs={"robot": robot, "cycle": cycle, "catalogue": catalogue},
                      names={"robot": robot_path.name, "cycle": duty_path.name,
                             "catalogue": cat_name},
-                     urdf_name=urdf_path.name, urdf_text=urdf_text,
+                     urdf_name=urdf_name, urdf_text=urdf_text,
                      urdf_digest=hashlib.sha256(urdf_text.encode("utf-8")).hexdigest())
 
 
@@ -140,7 +136,14 @@ def load_robot_doc(documents, doc):
     from ..model import load_robot
 
     doc = dict(doc)
-    doc["robot"] = dict(doc.get("robot", {}), arm_urdf=documents.urdf_name)
+    table = dict(doc.get("robot", {}))
+    if "urdf" in table:             # whole robot: its text is at hand, expanded
+        table["urdf"] = documents.urdf_name
+        table.pop("xacro_args", None)
+        doc.pop("package_paths", None)
+    else:
+        table["arm_urdf"] = documents.urdf_name
+    doc["robot"] = table
     return load_robot(Path(documents.names["robot"]), doc=doc, urdf_text=documents.urdf_text)
 
 
