@@ -345,6 +345,16 @@ class MobileManipulator:
         pin.framesForwardKinematics(self.model, self.data, q)
         return self.data.oMf[fid].copy()
 
+    def frame_placements(self, q, frames):
+        """World placements of several frames from one forward-kinematics pass.
+
+        frames : sequence of frame names or ids.  Returns a list of
+        pinocchio.SE3 (X_W_frame), in the order given.
+        """
+        ids = [self.frame_id(f) if isinstance(f, str) else int(f) for f in frames]
+        pin.framesForwardKinematics(self.model, self.data, q)
+        return [self.data.oMf[i].copy() for i in ids]
+
     def arm_points(self, q):
         """Points of the arm chain in the base frame for drawing, (k, 3) m:
         the mount, each arm joint origin in chain order, then the tool frame."""

@@ -109,3 +109,38 @@ def open_page(path, *, wait_for=None, screenshot=None, evaluate=None, settle_ms=
         finally:
             browser.close()
     return view
+
+
+def painted_share(canvas, background):
+    """JavaScript expression: the share (0..1) of the pixels of the canvas found by the
+    JS expression `canvas` that differ from `background` (r, g, b) by more than 24 in
+    some channel.  WebGL canvases need preserveDrawingBuffer (or a fresh render)."""
+    r, g, b = background
+    return (f"(() => {{ const c = {canvas}; const t = document.createElement('canvas');"
+            f" t.width = c.width; t.height = c.height; const x = t.getContext('2d');"
+            f" x.drawImage(c, 0, 0); const d = x.getImageData(0, 0, t.width, t.height).data;"
+            f" let n = 0; for (let i = 0; i < d.length; i += 4) {{"
+            f" if (Math.abs(d[i] - {r}) > 24 || Math.abs(d[i + 1] - {g}) > 24 ||"
+            f" Math.abs(d[i + 2] - {b}) > 24) n++; }} return n / (d.length / 4); }})()")
+
+
+#: the 3-D view's background, #f4f6f8 (opspace/report/_view3d.js)
+VIEW3D_BACKGROUND = (244, 246, 248)
+
+
+def open_view3d(path, *, screenshot=None):
+    """Open a page holding a 3-D view (opspace/report/_scene3d.py), wait for its scene
+    and measure its canvas: with the ground grid hidden, `drawn` is the share of
+    pixels the robot covers; with every part hidden too, `empty` (should be ~0: the
+    measure can fail).  Returns the PageView; `.evaluated` is a dict (state, drawn,
+    empty, parts, frames)."""
+    probe = painted_share("root.querySelector('canvas')", VIEW3D_BACKGROUND)
+    script = ("(() => { const root = document.querySelector('.view3d'); const v = root.view3d;"
+              " const out = {state: root.dataset.view3d, frames: v.frames,"
+              " parts: v.objects.length}; v.grid.visible = false; v.render();"
+              f" out.drawn = {probe}; const shown = v.objects.map(o => o.visible);"
+              f" v.objects.forEach(o => {{ o.visible = false; }}); v.render(); out.empty = {probe};"
+              " v.objects.forEach((o, i) => { o.visible = shown[i]; }); v.grid.visible = true;"
+              " v.render(); return out; })()")
+    return open_page(path, wait_for=".view3d[data-view3d=ready]", screenshot=screenshot,
+                     evaluate=script)

@@ -186,6 +186,18 @@ def test_a_failing_point_is_recorded_and_the_sweep_goes_on(basic_run):
     html = (out / "sweep.html").read_text()
     assert html.count("data:image/png;base64,") == 3 and "did not size (2)" in html
     assert "verify" in html.lower() and "safety standards" in html
+    assert "Best design in 3-D" in html
+
+
+def test_the_page_draws_the_best_design_in_3d_offline(basic_run, tmp_path):
+    from browser import open_view3d, require_browser
+
+    require_browser()
+    _, out, _ = basic_run
+    view = open_view3d(out / "sweep.html", screenshot=tmp_path / "sweep.png")
+    assert view.ok, view.problems()
+    assert view.evaluated["frames"] == 1
+    assert view.evaluated["drawn"] > 0.01 and view.evaluated["empty"] < 1e-3, view.evaluated
 
 
 # ---------------------------------------------------------------- executors

@@ -244,7 +244,7 @@ def load_description(path, *, doc=None, urdf_text=None):
 
 
 def robot_urdf(path, doc):
-    """(file name, text) of the URDF a parsed robot description names: its
+    """(file, text) of the URDF a parsed robot description names: its
     `[robot] arm_urdf`, or its whole robot's `[robot] urdf` (xacro expanded,
     `package://` through `[package_paths]`).  For callers that carry the text
     to where the files are not (sweep workers); ConfigError naming file and key.
@@ -259,12 +259,11 @@ def robot_urdf(path, doc):
     packages = read_package_paths(path, doc.get("package_paths", {}))
     if key == "urdf":
         args = table.get("xacro_args", {})
-        file, text = urdf_source(path, uri, packages, args if isinstance(args, dict) else {}, where)
-        return file.name, text
+        return urdf_source(path, uri, packages, args if isinstance(args, dict) else {}, where)
     file = resolve_uri(uri, packages, path.parent, where).resolve()
     if not file.is_file():
         raise ConfigError(f"{where}: URDF file not found: {file}")
-    return file.name, file.read_text(encoding="utf-8")
+    return file, file.read_text(encoding="utf-8")
 
 
 def _read_base(s):

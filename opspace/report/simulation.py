@@ -11,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ._views import simulation_view
 from .sizing import CAUTIONS, _finite
 
 __all__ = ["SIMULATION_ASSUMPTIONS", "simulation_html", "simulation_text",
@@ -146,6 +147,8 @@ def simulation_html(run, result, images, *, compare=None):
                    classes=[["", "ok" if m > 0 else "bad", ""],
                             ["", "ok" if u < 1 else "bad", ""]])
 
+    page.heading("3-D view")
+    page.raw(simulation_view(run, result))
     page.heading("Figures")
     captions = {
         "tracking_error.png": "Tool position (and orientation) error over the run, with the "

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ._views import sizing_view
 from .html import Page, fmt
 from .text import losses as _losses
 
@@ -410,6 +411,8 @@ def sizing_html(result, *, progress=None):
                   f"the payload: deceleration {s.deceleration:.2f} m/s², {s.time:.2f} s, "
                   f"{s.distance:.2f} m (limited by {s.limited_by}), on flat ground. Braking "
                   f"harder makes the robot slip or tip.")
+    page.heading("3-D view")
+    page.raw(sizing_view(result))
     page.heading("Drive as described (robot file)")
     d = result.described
     page.table(["figure", "right wheel", "left wheel", "unit"], [

@@ -45,7 +45,8 @@ class Documents:
     docs: root ("robot", "cycle", "catalogue") -> dict, the catalogue None
     when the duty cycle names none; names: root -> the base file's name;
     urdf_name, urdf_text: the arm URDF, or the whole robot's (xacro expanded);
-    urdf_digest: SHA-256 of its text.
+    urdf_digest: SHA-256 of its text; urdf_path: where it was read (meshes for
+    drawings are found from there).
     """
 
     docs: dict
@@ -53,6 +54,7 @@ class Documents:
     urdf_name: str
     urdf_text: str
     urdf_digest: str
+    urdf_path: Path | None = None
 
     def key(self, root, doc):
         """Cache key of an effective document (the robot's includes its URDF)."""
@@ -77,7 +79,7 @@ def read_documents(duty_path, *, where):
                           f"name its robot description)")
     robot_path = (duty_path.parent / table["robot"]).resolve()
     robot = read_toml(robot_path)
-    urdf_name, urdf_text = robot_urdf(robot_path, robot)   # arm or whole robot (xacro expanded)
+    urdf_path, urdf_text = robot_urdf(robot_path, robot)   # arm or whole robot (xacro expanded)
     catalogue, cat_name = None, None
     if isinstance(table.get("catalogue"), str):
         cat_path = (duty_path.parent / table["catalogue"]).resolve()
@@ -85,8 +87,9 @@ def read_documents(duty_path, *, where):
     return Documents(docs={"robot": robot, "cycle": cycle, "catalogue": catalogue},
                      names={"robot": robot_path.name, "cycle": duty_path.name,
                             "catalogue": cat_name},
-                     urdf_name=urdf_name, urdf_text=urdf_text,
-                     urdf_digest=hashlib.sha256(urdf_text.encode("utf-8")).hexdigest())
+                     urdf_name=urdf_path.name, urdf_text=urdf_text,
+                     urdf_digest=hashlib.sha256(urdf_text.encode("utf-8")).hexdigest(),
+                     urdf_path=urdf_path)
 
 
 # ------------------------------------------------------------------ editing

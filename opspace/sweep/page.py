@@ -381,6 +381,27 @@ def _best_table(page, result):
                   f"{_label(result, t)} = {_value(b.figures.get(t))}" for t in shown[:2]) + ".")
 
 
+def _best_view(page, result):
+    """The best design (first row of the best-designs table) in 3-D."""
+    from ..description.visuals import read_shapes
+    from ..report import design_view
+    from . import docs as _docs
+
+    rows, on_front = _best(result)
+    if not rows:
+        return
+    best, sweep = rows[0], result.sweep
+    point = next(p for p in sweep.points if p.id == best.id)
+    d = sweep.documents
+    robot = _docs.load_robot_doc(d, _docs.apply(d.docs, sweep.assignments(point))["robot"])
+    page.heading("Best design in 3-D")
+    shapes = read_shapes(d.urdf_path or d.urdf_name, text=d.urdf_text)
+    page.raw(design_view(robot, shapes=shapes, label=f"design {best.id}", caption=(
+        f"Design {best.id}, the first of the best-designs table "
+        f"({'on the Pareto front' if on_front else 'no feasible design; best sized point'}), "
+        f"arm in its zero pose, over its support polygon (green).")))
+
+
 def _failed_table(page, result, limit=30):
     sweep = result.sweep
     bad = [r for r in result.records if not r.ok]
@@ -410,6 +431,7 @@ def sweep_html(result):
         page.figure(*next(plots))
     page.heading("Feasible region")
     page.figure(*next(plots))
+    _best_view(page, result)
     par = next(plots, None)
     if par:
         page.heading("Parameters and figures of every design")
