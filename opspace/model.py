@@ -150,9 +150,10 @@ class MobileManipulator:
             m.addFrame(pin.Frame(name, jw, 0, pin.SE3.Identity(), pin.FrameType.BODY))
         X_mount = pin.SE3(pin.rpy.rpyToMatrix(np.array(d.mount_rpy)), np.array(d.mount_xyz))
         model = pin.appendModel(m, d.arm_model, base_frame, X_mount)
-        for name, (xyz, R) in (d.whole.frames if d.whole is not None else {}).items():
-            if not model.existFrame(name):    # links fixed to the chassis (sensors, plates)
-                model.addFrame(pin.Frame(name, jb, model.getFrameId("base"),
+        for name, (parent, xyz, R) in (d.whole.frames if d.whole is not None else {}).items():
+            if not model.existFrame(name):    # a whole URDF's chassis and wheel links
+                fid = model.getFrameId(parent)
+                model.addFrame(pin.Frame(name, model.frames[fid].parentJoint, fid,
                                          pin.SE3(np.array(R), np.array(xyz)), pin.FrameType.BODY))
         model.gravity = pin.Motion(np.array([0.0, 0.0, -GRAVITY]), np.zeros(3))
         return model

@@ -136,6 +136,12 @@ def test_derived_base_against_hand_sums(tmp_path):
     # the placeholder camera is a frame of the model, at its URDF place
     X = robot.frame_placement(robot.configuration(), "camera")
     np.testing.assert_allclose(X.translation, P_ROOT + [0.3, 0, 0.5], atol=1e-15)
+    # a wheel link turns with its wheel: R = Ry(φ) Rx(−π/2), centre fixed
+    X = robot.frame_placement(robot.configuration(wheels=(0.3, 0.0)), "wheel_r")
+    np.testing.assert_allclose(X.translation, [0.0, -B, H], atol=1e-15)
+    np.testing.assert_allclose(X.rotation, pin.utils.rotate("y", 0.3) @ pin.utils.rotate(
+        "x", -math.pi / 2), atol=1e-15)
+    assert robot.model.existFrame("caster_wheel")          # held at zero with the chassis
 
 
 def arm_form(tmp_path):

@@ -320,7 +320,9 @@ class WholeForm:
                            the TOML's keys and units, before the TOML's overrides
     derived : tuple[Derived]   each derived value and where it came from
     arm_text : str         the arm cut out as its own URDF
-    frames : dict          {link: (xyz, R)} of the links fixed to the chassis, base frame
+    frames : dict          {link: (parent, xyz, R)}: the chassis links (parent "base",
+                           base frame) and the wheel links (parent "wheel_right" or
+                           "wheel_left", in the wheel joint's frame at the wheel centre)
     meshes : tuple         (link, uri, path or None, exists) per <mesh>
     contacts : dict        {link: (x, y)} ground point below every link, base frame
     """
@@ -375,12 +377,25 @@ def load_whole(path, doc, s, urdf_text=None):
                if j.kind != "fixed" and j.name not in (right.name, left.name, entry.name)]
     body = chassis + [n for j in passive for n in tree.subtree(j.child)]
     tables, derived = _derive(tree, X_B, body, passive, right, left, arm_root, radius, r_src)
-    frames = {n: (tuple((X_B @ tree.X[n])[:3, 3]), (X_B @ tree.X[n])[:3, :3])
-              for n in chassis if n != arm_root and n not in between}
+    frames = _frames(tree, X_B, [n for n in body if n != arm_root and n not in between],
+                     right, left, radius, tables["base"]["half_track"])
     contacts = {n: _contact(tree, n, X_B) for n in tree.X}
     return WholeForm(file, tables, tuple(derived), arm_text(tree, entry, arm_root, between,
                                                              root.get("name", "arm")),
                      frames, tuple(mesh_files(root, packages, file.parent)), contacts)
+
+
+def _frames(tree, X_B, chassis, right, left, radius, half_track):
+    """Placements of the links that become frames of the model (WholeForm.frames)."""
+    out = {}
+    for n in chassis:
+        X = X_B @ tree.X[n]
+        out[n] = ("base", tuple(X[:3, 3]), X[:3, :3])
+    for joint, name, y in ((right, "wheel_right", -half_track), (left, "wheel_left", half_track)):
+        for n in tree.subtree(joint.child):            # at zero: the wheel centre's axes are B's
+            X = X_B @ tree.X[n]
+            out[n] = (name, tuple(X[:3, 3] - [0.0, y, radius]), X[:3, :3])
+    return out
 
 
 def _given_radius(path, doc):

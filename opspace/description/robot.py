@@ -158,6 +158,7 @@ class RobotDescription:
     arm_model: object = None  # pinocchio.Model of the arm alone (fixed base)
     mimic: dict = field(default_factory=dict)  # follower joint -> Mimic of an independent one
     whole: object = None  # WholeForm: what a whole-robot URDF gave, None for the arm-URDF form
+    package_paths: dict = field(default_factory=dict)  # package -> directory ([package_paths])
 
 
 # ---------------------------------------------------------------------------
@@ -240,7 +241,8 @@ def load_description(path, *, doc=None, urdf_text=None):
         base=base, wheel=wheel, drive=drive, mount_xyz=mount_xyz,
         mount_rpy=mount_rpy, casters=casters, ground_friction=friction,
         payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic,
-        whole=whole and _sources(whole, doc, path.name))
+        whole=whole and _sources(whole, doc, path.name),
+        package_paths=read_package_paths(path, doc.get("package_paths", {})))
 
 
 def robot_urdf(path, doc):
