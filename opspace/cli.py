@@ -96,6 +96,9 @@ def _cmd_size(args):
         s = result.stop
         print(f"  shortest stop from {s.speed:g} m/s (worst arm pose, payload): "
               f"{s.deceleration:.2f} m/s², {s.distance:.2f} m, limited by {s.limited_by}")
+    if result.contact is not None:
+        print(f"  contact pre-check (two-body model, not part of the drive verdict): "
+              f"{result.contact.status.upper()}: {result.contact.message}")
     print(f"report: {paths['report']}")
     print(f"figures with units: {paths['summary']}; time series: {paths['timeseries']}")
     print("Model estimates: apply service factors, verify on hardware, follow the applicable "
@@ -137,6 +140,49 @@ def _cmd_simulate(args):
     return 0
 
 
+# -------------------------------------------------------------- opspace contact
+def _cmd_contact(args):
+    from .contact import check_contacts, load_contact_points, load_regions
+    from .model import load_robot
+    from .report.contact import write_contact_report
+
+    robot = load_robot(args.robot or demo_robot_path())
+    points = load_contact_points(args.points) if args.points else None
+    regions = load_regions(args.regions) if args.regions else None
+    if args.region is not None:
+        from dataclasses import replace
+        table = regions or load_regions()
+        table.get(args.region, "--region")
+        base = points if points is not None else robot.description.contact_points
+        points = tuple(replace(p, region=args.region) for p in base)
+    out = _output_dir(args.output)
+    if args.payload:
+        robot.attach_payload()
+    check = check_contacts(robot, points, regions, pose=args.pose, speed=args.speed,
+                           maps=args.map, map_samples=args.samples)
+    paths = write_contact_report(check, out, footprint=robot.description.base.footprint)
+    print(f"{check.status.upper()}: {check.message}")
+    for m in check.at_pose:
+        v = "no body region at this height" if m.v_whole_body is None else \
+            f"permissible {m.v_whole_body:.2f} m/s ({m.region})"
+        lk = "immobile" if m.base_locked == float("inf") else f"{m.base_locked:.3g} kg"
+        print(f"  {m.name:<18} effective mass {m.whole_body:.3g} kg whole body, "
+              f"{lk} base locked, {m.simple:.3g} kg hand estimate; {v}")
+    print(f"page: {paths['contact.html']}; figures: {paths['contact.json']}, "
+          f"{paths['contact.csv']}")
+    print("Pre-check for design, not a validation: a risk assessment and measurement are "
+          "needed; follow the applicable standards.")
+    return 1 if check.status == "exceeded" else 0
+
+
+def _output_dir(path):
+    out = Path(path)
+    if out.exists() and not out.is_dir():
+        raise ConfigError(f"-o {out}: exists and is not a directory")
+    return out
+# ---------------------------------------------------------- end opspace contact
+
+
 # ---------------------------------------------------------------- opspace sweep
 def _cmd_sweep(args):
     from .sweep import load_sweep, progress_bar, run_sweep
@@ -165,6 +211,20 @@ def _cmd_sweep(args):
           "safety standards.")
     return 0 if result.feasible else 1
 # ------------------------------------------------------------ end opspace sweep
+
+
+def _speed_arg(text):
+    v = float(text)
+    if not 0.0 <= v <= 20.0:          # nan fails both comparisons
+        raise argparse.ArgumentTypeError(f"must be a speed within 0..20 m/s, got {text}")
+    return v
+
+
+def _samples_arg(text):
+    n = int(text)
+    if not 10 <= n <= 200_000:
+        raise argparse.ArgumentTypeError(f"must be a whole number within 10..200000, got {text}")
+    return n
 
 
 def build_parser():
@@ -199,6 +259,26 @@ def build_parser():
                         "(same equations, ~5x slower; for cross-checks)")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_simulate)
+    # ---------------------------------------------------------- opspace contact
+    p = sub.add_parser("contact", help="effective mass and permissible contact speed of the "
+                                       "robot's contact points (two-body model pre-check)")
+    p.add_argument("robot", nargs="?", help="robot description TOML (default: the bundled demo)")
+    p.add_argument("-o", "--output", default="opspace-contact",
+                   help="output directory (default: ./opspace-contact)")
+    p.add_argument("--points", help="contact points TOML ([[contact_point]] tables; default: "
+                                    "the description's)")
+    p.add_argument("--regions", help="body-region table TOML (default: the bundled one)")
+    p.add_argument("--region", help="body region for every point (default: each point's, or "
+                                    "the most restrictive at its height)")
+    p.add_argument("--pose", help="a named pose of the description (default: neutral)")
+    p.add_argument("--speed", type=_speed_arg, help="check this speed (m/s) of every point "
+                                                   "along its direction; exit 1 if exceeded")
+    p.add_argument("--payload", action="store_true", help="attach the rated payload")
+    p.add_argument("--map", action="store_true",
+                   help="maps of the permissible speed over the arm's workspace")
+    p.add_argument("--samples", type=_samples_arg, default=1500,
+                   help="arm configurations sampled for a map (default 1500)")
+    p.set_defaults(func=_cmd_contact)
     # ------------------------------------------------------------ opspace sweep
     p = sub.add_parser("sweep", help="size many design points (a sweep file) on local "
                                      "processes or a Dask cluster; CSV and HTML page")

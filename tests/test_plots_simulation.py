@@ -344,7 +344,11 @@ def test_simulation_page_is_self_contained(tmp_path):
     paths = write_simulation_outputs(run, result, tmp_path, animate=False)  # GIF: tested above
     html = paths["report.html"].read_text(encoding="utf-8")
     images = re.findall(r'<img[^>]*src="([^"]+)"', html)
-    assert len(images) == 4 and all(src.startswith("data:image/png;base64,") for src in images)
+    # four figures of the run, and the contact pre-check's two (masses, speed use)
+    # where the description lists contact points, as the demo does
+    expected = 4 + (2 if result.extra.get("contact") is not None else 0)
+    assert len(images) == expected and all(src.startswith("data:image/png;base64,")
+                                           for src in images)
     # the 3-D view's three.js names the XHTML namespace (an identifier, not a request)
     text = html.replace("http://www.w3.org/1999/xhtml", "")
     assert "http://" not in text and "https://" not in text

@@ -27,6 +27,8 @@ Keys (SI units; every key is documented in the README's reference section)::
     [arm_joint.<urdf joint>] coulomb, viscous, rotor_inertia = 0, gear_ratio = 1
     [poses]  <name> = [arm joint values]
     [[caster]] position = [x, y]   (or link = <URDF link>, whole-robot form)
+    [[contact_point]] name, frame | outline, offset, region, area, direction
+                      (see `description.contact`)
 """
 
 from __future__ import annotations
@@ -42,6 +44,7 @@ from ._toml import Section, check_inertia, read_document
 from ._urdf import Mimic, check_inertials, parse_xml, pinocchio_model, read_mimic
 from ._sources import read_package_paths, resolve_uri, urdf_source
 from ._whole import load_whole
+from .contact import read_contact_points
 
 __all__ = [
     "ArmJointDrive",
@@ -159,13 +162,14 @@ class RobotDescription:
     mimic: dict = field(default_factory=dict)  # follower joint -> Mimic of an independent one
     whole: object = None  # WholeForm: what a whole-robot URDF gave, None for the arm-URDF form
     package_paths: dict = field(default_factory=dict)  # package -> directory ([package_paths])
+    contact_points: tuple = ()  # ContactPointSpec, for the contact pre-check
 
 
 # ---------------------------------------------------------------------------
 # the description
 # ---------------------------------------------------------------------------
 TOP_LEVEL = ("robot", "base", "wheel", "drive", "mount", "ground", "payload",
-             "arm_joint", "poses", "caster", "package_paths")
+             "arm_joint", "poses", "caster", "package_paths", "contact_point")
 
 
 def load_description(path, *, doc=None, urdf_text=None):
@@ -235,6 +239,9 @@ def load_description(path, *, doc=None, urdf_text=None):
     _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
     arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
     poses = _read_poses(path, doc.get("poses", {}), arm_model, mimic)
+    contact_points = read_contact_points(path, doc.get("contact_point", []))
+    _check_contact_points(path, contact_points, arm_model, base,
+                          tuple(whole.frames) if whole is not None else ())
 
     return RobotDescription(
         path=path, name=robot_name, arm_urdf=arm_urdf, tool_frame=tool_frame,
@@ -242,7 +249,8 @@ def load_description(path, *, doc=None, urdf_text=None):
         mount_rpy=mount_rpy, casters=casters, ground_friction=friction,
         payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic,
         whole=whole and _sources(whole, doc, path.name),
-        package_paths=read_package_paths(path, doc.get("package_paths", {})))
+        package_paths=read_package_paths(path, doc.get("package_paths", {})),
+        contact_points=contact_points)
 
 
 def robot_urdf(path, doc):
@@ -266,6 +274,25 @@ def robot_urdf(path, doc):
     if not file.is_file():
         raise ConfigError(f"{where}: URDF file not found: {file}")
     return file, file.read_text(encoding="utf-8")
+
+
+def _check_contact_points(path, points, arm, base, chassis=()):
+    """Each contact point names a frame of the arm (or the base, or `chassis`:
+    a whole-robot URDF's chassis and wheel links) or, with an outline point,
+    the base has a footprint."""
+    for i, p in enumerate(points):
+        where = f"{path.name}: [[contact_point]] {i + 1} {p.name!r}"
+        if p.outline is not None and base.footprint is None:
+            raise ConfigError(f"{where} outline = {p.outline!r} needs [base] footprint")
+        if p.outline is None and p.frame not in _BASE_FRAMES + chassis \
+                and not arm.existFrame(p.frame):
+            names = ", ".join(f.name for f in arm.frames if f.name != "universe")
+            raise ConfigError(f"{where} frame = {p.frame!r} is not a link or frame of the arm "
+                              f"URDF (known: base, {names})")
+
+
+#: frames the base model adds to the arm's (model.MobileManipulator)
+_BASE_FRAMES = ("base", "wheel_right", "wheel_left")
 
 
 def _read_base(s):

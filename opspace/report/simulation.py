@@ -163,6 +163,10 @@ def simulation_html(run, result, images, *, compare=None):
         page.figure(data, captions.get(name, name),
                     mime="image/gif" if name.endswith(".gif") else "image/png")
 
+    contact = result.extra.get("contact")
+    if contact is not None:
+        from .contact import contact_section
+        contact_section(page, contact)
     page.heading("Assumptions")
     page.items(SIMULATION_ASSUMPTIONS)
     return page.render()
@@ -201,6 +205,9 @@ def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True
         summary["with_payload_mass_error"] = {
             "payload_mass_error": {"value": err, "unit": "1"},
             **{k: v for k, v in other.summary().items() if k == "tool_position_error"}}
+    if result.extra.get("contact") is not None:
+        from .contact import contact_summary
+        summary["contact"] = contact_summary(result.extra["contact"])
     summary["cautions"] = list(CAUTIONS)
     put("summary.json", lambda p: p.write_text(json.dumps(_finite(summary), indent=2,
                                                           ensure_ascii=False, allow_nan=False)))

@@ -155,6 +155,9 @@ def sizing_summary(result):
                              "tip_over": result.worst_tip.to_dict(names, units),
                              "instants": _q(len(result.instants), "1")}
         out["shortest_stop"] = result.stop.to_dict(names, units)
+    if result.contact is not None:
+        from .contact import contact_summary
+        out["contact"] = contact_summary(result.contact)
     return out
 
 
@@ -425,6 +428,9 @@ def sizing_html(result, *, progress=None):
                                 ("energy per cycle", "energy", "J"),
                                 ("regenerable share", "regenerated_share", "1"))],
         left=(0,))
+    if result.contact is not None:
+        from .contact import contact_section
+        contact_section(page, result.contact)
     page.heading("Assumptions")
     page.items(ASSUMPTIONS + (f"Normal loads: {ev.stability.loads.model}.",))
     page.heading("Cautions")

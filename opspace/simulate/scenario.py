@@ -137,11 +137,25 @@ class ScenarioRun:
     def run(self, *, integrator=None, progress=None, stability=True, compiled=None):
         """SimulationResult of the scenario (`compiled`: see `simulate`)."""
         sc = self.scenario
-        return simulate(self.robot, self.control, duration=sc.duration, q0=self.q0, dt=sc.step,
-                        control_period=sc.control_period, integrator=integrator or sc.integrator,
-                        friction=sc.friction, events=self.events, stability=stability,
-                        controller_robot=self.controller_robot, progress=progress,
-                        compiled=self.compiled if compiled is None else compiled)
+        result = simulate(self.robot, self.control, duration=sc.duration, q0=self.q0, dt=sc.step,
+                          control_period=sc.control_period, integrator=integrator or sc.integrator,
+                          friction=sc.friction, events=self.events, stability=stability,
+                          controller_robot=self.controller_robot, progress=progress,
+                          compiled=self.compiled if compiled is None else compiled)
+        if self.robot.description.contact_points:
+            result.extra["contact"] = self.contact_check(result)
+        return result
+
+    def contact_check(self, result):
+        """The contact pre-check along a run of this scenario (`opspace.contact`):
+        each listed contact point's speed against its permissible speed, the
+        picked payload counted from the pick on."""
+        from ..contact import check_contacts
+
+        payload = self.events[0].payload if self.events else None
+        return check_contacts(self.robot, heaviest=False,
+                              motion={"qs": result.q, "nu": result.nu, "t": result.t,
+                                      "payload_flags": result.payload, "payload": payload})
 
 
 def _fit(x, n, *, hold):

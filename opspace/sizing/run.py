@@ -48,7 +48,10 @@ class SizingResult:
     tip-over `Criterion` rows; sweeps: a `RatioSweep` per motor × gearbox family
     (empty without a catalogue); load_inertia kg·m² per wheel (straight-line
     equivalent, rotor excluded); instants, worst_torque, worst_tip, stop: the
-    worst-case search; status "pass" / "fail" / "no catalogue" and message.
+    worst-case search; status "pass" / "fail" / "no catalogue" and message;
+    contact: the contact pre-check along the cycle (`opspace.contact.ContactCheck`)
+    when the description lists contact points, else None (it has its own status
+    and does not enter the drive verdict).
     """
 
     duty: DutyCycle
@@ -66,6 +69,7 @@ class SizingResult:
     status: str
     message: str
     catalogue: object = None
+    contact: object = None
 
     @property
     def passing(self):
@@ -172,14 +176,27 @@ def size(duty, *, robot=None, catalogue=None, search=True, progress=None):
         worst_t, worst_m = worst_poses(robot, list(instants),
                                        progress=lambda d, t: note("worst-case search", d, t))
         stop = shortest_stop(robot, float(np.max(np.abs(ev.v))), worst_m.q)
+    contact = _contact_check(robot, ev, search)
+    note("contact pre-check", 1, 1)
     result = SizingResult(duty=duty, robot=robot, evaluation=ev, wheel_duty=wd, described=described,
                         robot_criteria=extra, sweeps=sweeps, load_inertia=J_load,
                         instants=instants, worst_torque=worst_t, worst_tip=worst_m, stop=stop,
-                        status="", message="", catalogue=catalogue)
+                        status="", message="", catalogue=catalogue, contact=contact)
     status, message = _verdict(result)
     object.__setattr__(result, "status", status)
     object.__setattr__(result, "message", message)
     return result
+
+
+def _contact_check(robot, ev, search):
+    """The contact pre-check along the cycle (rated payload where it is held), or None."""
+    if not robot.description.contact_points:
+        return None
+    from ..contact import check_contacts
+
+    return check_contacts(robot, heaviest=search,
+                          motion={"qs": ev.qs, "nu": ev.nu, "t": ev.t, "payload_flags": ev.payload,
+                                  "payload": robot.description.payload})
 
 
 def _verdict(result):
