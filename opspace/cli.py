@@ -25,8 +25,10 @@ def demo_robot_path():
 def _cmd_check(args):
     from .model import load_robot
     from .report import check_summary
+    from .stability import check_standing
 
     robot = load_robot(args.robot or demo_robot_path())
+    check_standing(robot)
     print(check_summary(robot))
     return 0
 
@@ -94,8 +96,12 @@ def _cmd_size(args):
               f"{'pass' if c.passed else 'FAIL'} — {c.note}")
     if result.stop is not None:
         s = result.stop
-        print(f"  shortest stop from {s.speed:g} m/s (worst arm pose, payload): "
-              f"{s.deceleration:.2f} m/s², {s.distance:.2f} m, limited by {s.limited_by}")
+        if s.deceleration > 0:
+            print(f"  shortest stop from {s.speed:g} m/s (worst arm pose, payload): "
+                  f"{s.deceleration:.2f} m/s², {s.distance:.2f} m, limited by {s.limited_by}")
+        else:
+            print(f"  shortest stop from {s.speed:g} m/s (worst arm pose, payload): none "
+                  f"without losing grip or tipping ({s.limited_by})")
     if result.contact is not None:
         print(f"  contact pre-check (two-body model, not part of the drive verdict): "
               f"{result.contact.status.upper()}: {result.contact.message}")

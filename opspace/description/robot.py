@@ -26,7 +26,8 @@ Keys (SI units; every key is documented in the README's reference section)::
     [payload] mass, com = [0, 0, 0], inertia = [0, 0, 0, 0, 0, 0]
     [arm_joint.<urdf joint>] coulomb, viscous, rotor_inertia = 0, gear_ratio = 1
     [poses]  <name> = [arm joint values]
-    [[caster]] position = [x, y]   (or link = <URDF link>, whole-robot form)
+    [[caster]] position = [x, y], stiffness   (or link = <URDF link>, whole-robot form)
+    [support], [[rocker]], [ground] friction_range: the load model (`support`)
     [[contact_point]] name, frame | outline, offset, region, area, direction
                       (see `description.contact`)
 """
@@ -45,6 +46,7 @@ from ._urdf import Mimic, check_inertials, parse_xml, pinocchio_model, read_mimi
 from ._sources import read_package_paths, resolve_uri, urdf_source
 from ._whole import load_whole
 from .contact import read_contact_points
+from .support import SupportSpec, read_friction_range, read_support
 
 __all__ = [
     "ArmJointDrive",
@@ -162,6 +164,8 @@ class RobotDescription:
     mimic: dict = field(default_factory=dict)  # follower joint -> Mimic of an independent one
     whole: object = None  # WholeForm: what a whole-robot URDF gave, None for the arm-URDF form
     package_paths: dict = field(default_factory=dict)  # package -> directory ([package_paths])
+    support: SupportSpec = SupportSpec()
+    friction_range: tuple = (DEFAULT_GROUND_FRICTION, DEFAULT_GROUND_FRICTION)  # (low, high)
     contact_points: tuple = ()  # ContactPointSpec, for the contact pre-check
 
 
@@ -169,7 +173,8 @@ class RobotDescription:
 # the description
 # ---------------------------------------------------------------------------
 TOP_LEVEL = ("robot", "base", "wheel", "drive", "mount", "ground", "payload",
-             "arm_joint", "poses", "caster", "package_paths", "contact_point")
+             "arm_joint", "poses", "caster", "support", "rocker", "contact_point",
+             "package_paths")
 
 
 def load_description(path, *, doc=None, urdf_text=None):
@@ -228,14 +233,18 @@ def load_description(path, *, doc=None, urdf_text=None):
 
     s = Section(path, "ground", doc.get("ground", {}))
     friction = s.number("friction", DEFAULT_GROUND_FRICTION, lo=0.0, lo_open=True)
+    friction_range = read_friction_range(s, friction)
     s.finish()
 
     payload = None
     if "payload" in doc:
         payload = read_payload(Section(path, "payload", doc["payload"]))
 
-    casters = _read_casters(path, doc.get("caster", []), base, whole)
+    casters, caster_stiffness = _read_casters(path, doc.get("caster", []), base, whole)
     arm_model, mimic = load_arm(arm_urdf, where=f"{name}: [robot] arm_urdf", text=urdf_text)
+    mass = base.mass + 2 * wheel.mass + sum(arm_model.inertias[j].mass
+                                            for j in range(arm_model.njoints))
+    support = read_support(path, doc, casters, caster_stiffness, mass * 9.80665)
     _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
     arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
     poses = _read_poses(path, doc.get("poses", {}), arm_model, mimic)
@@ -250,7 +259,7 @@ def load_description(path, *, doc=None, urdf_text=None):
         payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic,
         whole=whole and _sources(whole, doc, path.name),
         package_paths=read_package_paths(path, doc.get("package_paths", {})),
-        contact_points=contact_points)
+        contact_points=contact_points, support=support, friction_range=friction_range)
 
 
 def robot_urdf(path, doc):
@@ -360,7 +369,11 @@ def _read_casters(path, entries, base, whole=None):
     link whose collision centre or origin is the contact."""
     if not isinstance(entries, list):
         raise ConfigError(f"{path.name}: [[caster]] must be an array of tables, got {entries!r}")
-    casters = []
+    if not entries:
+        raise ConfigError(f"{path.name}: no [[caster]]: two drive wheels and no passive "
+                          "contact make a self-balancing base, outside opspace's scope "
+                          "(add at least one caster)")
+    casters, stiffness = [], []
     for i, entry in enumerate(entries):
         s = Section(path, f"caster {i + 1}", entry)
         if whole is not None and s.has("link") and not s.has("position"):
@@ -370,11 +383,13 @@ def _read_casters(path, entries, base, whole=None):
             x, y = whole.contacts[link]
         else:
             x, y = s.vector("position", 2, unit="m")
+        stiffness.append(s.number("stiffness", unit="N/m", lo=0.0, lo_open=True,
+                                  required=False))
         s.finish()
         if abs(x) < 1e-9 and abs(abs(y) - base.half_track) < 1e-9:
             s.fail("position", f"coincides with a drive wheel contact, got {[x, y]}")
         casters.append((x, y))
-    return tuple(casters)
+    return tuple(casters), stiffness
 
 
 def _sources(whole, doc, name):

@@ -160,7 +160,9 @@ class Criteria:
             W_ok = np.where(fz_ok[:, None], W, np.r_[0, 0, 1.0, np.zeros(6)])
             track = stability_figures(self.robot, GroundWrench(W_ok[:, :3], W_ok[:, 3:6],
                                                                W_ok[:, 6:]), F, mu=self.mu)
-            trac = np.max(track.traction, axis=1) / self.policy.traction_ceiling
+            # nan where the robot tips (no load distribution): no grip either
+            trac = np.max(np.where(np.isnan(track.traction), np.inf, track.traction),
+                          axis=1) / self.policy.traction_ceiling
             tip = 1.0 + (self.policy.zmp_margin - track.margin) / self.size
             tip = np.where(track.loads.supported & fz_ok, tip, np.inf)
             u[:, TRACTION] = np.where(fz_ok, trac, np.inf)

@@ -486,8 +486,10 @@ def loads_and_traction(t, N, contact_names, traction, *, segments=None, traction
     """Normal load per contact (N) and traction use per drive wheel over time.
 
     Traction use is |F_t| / (μ N): the wheel slips at 1 (the line drawn; the
-    region above it is shaded).  A load of 0 N is lift-off.  NaN samples
-    (no admissible load distribution: the robot tips) are left as gaps.
+    region above it is shaded).  A load of 0 N is lift-off; where a wheel has
+    lifted, its traction use is unbounded (+inf in `traction`): drawn as a
+    marker band at the top of the axis, the first instant labelled.  NaN
+    samples (no admissible load distribution: the robot tips) are left as gaps.
 
     Parameters
     ----------
@@ -509,7 +511,10 @@ def loads_and_traction(t, N, contact_names, traction, *, segments=None, traction
     names = [str(n) for n in contact_names]
     if len(names) != N.shape[1]:
         raise ValueError(f"`contact_names` has {len(names)} names for {N.shape[1]} columns of `N`")
-    U = _wheel_series("traction", traction, t.size)
+    U_raw = np.asarray(traction, dtype=float)
+    lift = np.isposinf(U_raw)
+    U = _wheel_series("traction", np.where(lift, np.nan, U_raw), t.size)
+    lift = lift.reshape(U.shape)
     tnames = names[:U.shape[1]] if traction_names is None else [str(n) for n in traction_names]
     if len(tnames) != U.shape[1]:
         raise ValueError(f"`traction_names` has {len(tnames)} names for {U.shape[1]} columns")
@@ -526,6 +531,14 @@ def loads_and_traction(t, N, contact_names, traction, *, segments=None, traction
     top = max(1.25, 1.08 * float(np.nanmax(U))) if np.any(np.isfinite(U)) else 1.25
     ax_U.axhspan(1.0, top, color=_LIMIT, alpha=0.10, lw=0, label="slipping")
     ax_U.axhline(1.0, color=_LIMIT, ls="--", lw=1.2, label="slip limit |F_t| = μ N")
+    for k, name in enumerate(tnames):
+        if lift[:, k].any():
+            i = int(np.argmax(lift[:, k]))
+            y = top * (0.96 - 0.05 * k)
+            ax_U.plot(t[lift[:, k]], np.full(int(lift[:, k].sum()), y), ls="none", marker="|",
+                      ms=6, color=_WHEEL_COLOURS[k % 2], label=f"{name} lifted off (use unbounded)")
+            ax_U.annotate(f"{name} lifts off, t = {t[i]:.2f} s", (t[i], y), xytext=(4, -10),
+                          textcoords="offset points", fontsize=7.5, color=_WHEEL_COLOURS[k % 2])
     ax_U.set_ylim(0.0, top)
     ax_N.set_ylabel("normal load [N]")
     ax_U.set_ylabel("traction use |F_t|/(μN) [-]")

@@ -60,6 +60,10 @@ def simulation_text(run, result, *, compare=None):
     if "min_tip_over_margin" in s:
         lines.append(f"least tip-over margin {s['min_tip_over_margin']['value'] * 1e3:.0f} mm; "
                      f"largest traction use {s['max_traction_use']['value']:.2f} (slip at 1)")
+        for sp in s["drive_wheel_lift_off"][:3]:
+            lines.append(f"lift-off: {sp['wheel']} from t = {sp['start']['value']:.2f} s to "
+                         f"{sp['end']['value']:.2f} s (no grip: traction use unbounded)")
+        lines.append(f"load model: {s['load_model']}")
     lines.append("")
     lines.append(f"{'coordinate':<16}{'peak':>12}{'RMS':>12}{'limit':>12}  unit")
     for name, v in s["efforts"].items():
@@ -146,6 +150,10 @@ def simulation_html(run, result, images, *, compare=None):
                     ["largest traction use (tyre force / friction limit)", fmt(u), "< 1"]],
                    classes=[["", "ok" if m > 0 else "bad", ""],
                             ["", "ok" if u < 1 else "bad", ""]])
+        page.para(f"Load model: {s['load_model']}.")
+        for sp in s["drive_wheel_lift_off"]:
+            page.para(f"Lift-off: {sp['wheel']} from t = {sp['start']['value']:.2f} s to "
+                      f"{sp['end']['value']:.2f} s (no grip there: traction use unbounded).")
 
     page.heading("3-D view")
     page.raw(simulation_view(run, result))

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..stability import lift_off_spans
 from ._views import sizing_view
 from .html import Page, fmt
 from .text import losses as _losses
@@ -17,10 +18,12 @@ __all__ = ["ASSUMPTIONS", "CAUTIONS", "sizing_html", "sizing_summary", "write_si
 
 ASSUMPTIONS = (
     "Rigid bodies; the arm URDF's inertias and the description's masses are taken as exact.",
-    "Wheels roll without slip and without side slip; the support is a rigid chassis on "
-    "contacts of equal vertical stiffness (no suspension), contacts lift off when unloaded.",
+    "Wheels roll without slip and without side slip; normal loads follow the robot's load "
+    "model (named with the stability figures); contacts lift off when unloaded.",
     "Lateral ground force carried by the drive wheels in proportion to their normal loads "
-    "(casters swivel freely); traction limit is Coulomb friction |F_t| <= mu N (friction circle).",
+    "(casters swivel freely and carry only their rolling resistance); each drive tyre's force "
+    "includes the casters' rolling resistance it overcomes; traction limit is Coulomb friction "
+    "|F_t| <= mu N (friction circle).",
     "Motor torque through the gearbox efficiency: divided by it when the drive delivers "
     "power, multiplied by it when the wheel back-drives the gearbox.",
     "Thermal RMS: the motor rests at zero torque between cycles (a brake holds the robot "
@@ -53,6 +56,12 @@ def _q(value, unit):
 
 def _per_wheel(arr, unit):
     return {name: _q(float(v), unit) for name, v in zip(("right_wheel", "left_wheel"), arr)}
+
+
+def _peak(x):
+    """Column maxima ignoring nan (instants where the robot tips); nan if all are."""
+    x = np.asarray(x, dtype=float)
+    return np.array([np.nanmax(c) if np.any(~np.isnan(c)) else np.nan for c in x.T])
 
 
 def _rms(t, x):
@@ -115,7 +124,7 @@ def sizing_summary(result):
                    "rms_torque": _per_wheel(_rms(ev.t, ev.tau_out), "N·m"),
                    "peak_speed": _per_wheel(np.abs(ev.wheel_speed).max(axis=0), "rad/s"),
                    "peak_power": _per_wheel(P_wheel.max(axis=0), "W"),
-                   "peak_traction_use": _per_wheel(np.max(st.traction, axis=0), "1")},
+                   "peak_traction_use": _per_wheel(_peak(st.traction), "1")},
         "described_drive": {
             "gear_ratio": _q(described.gear_ratio, "1"),
             "peak_motor_torque": _per_wheel(np.atleast_1d(described.peak_torque), "N·m"),
@@ -131,7 +140,11 @@ def sizing_summary(result):
             "min_tip_over_margin": _q(float(st.margin.min()), "m"),
             "min_normal_load": {c.name: _q(float(np.nanmin(st.loads.N[:, k])), "N")
                                 for k, c in enumerate(robot.contacts)},
-            "load_model": st.loads.model},
+            "load_model": st.loads.model,
+            "lift_off": [{"contact": sp["contact"], "start": _q(sp["start"], "s"),
+                          "end": _q(sp["end"], "s")}
+                         for sp in lift_off_spans(ev.t, st.loads.lifted,
+                                                  [c.name for c in robot.contacts])]},
         "candidates": [_sweep_summary(s, result) for s in result.sweeps],
         "assumptions": list(ASSUMPTIONS),
         "cautions": list(CAUTIONS),
@@ -183,9 +196,18 @@ def write_timeseries_csv(result, path):
         cols[f"{c.name} normal load [N]"] = st.loads.N[:, k]
     for k, name in enumerate(result.robot.arm_joint_names):
         cols[f"{name} effort"] = ev.Q[:, 2 + k]
+    write_csv(path, cols)
+
+
+def write_csv(path, cols):
+    """Columns as CSV ("%.6g"); +inf (a traction use where the wheel has lifted
+    off) is written "lift-off", nan (no load distribution: the robot tips) "tips"."""
     data = np.column_stack([np.asarray(v, dtype=float) for v in cols.values()])
-    header = ",".join(cols)
-    np.savetxt(path, data, delimiter=",", header=header, comments="", fmt="%.6g")
+    text = np.char.mod("%.6g", data)
+    text = np.where(np.isposinf(data), "lift-off", np.where(np.isnan(data), "tips", text))
+    lines = [",".join(cols)] + [",".join(row) for row in text]
+    with open(path, "w", encoding="utf-8") as fh:
+        fh.write("\n".join(lines) + "\n")
 
 
 # --------------------------------------------------------------------------- HTML
@@ -341,6 +363,19 @@ def _figures(result, progress):
     return figs
 
 
+def _stability_paragraphs(page, result):
+    """The load model and every lift-off, in words."""
+    from ..stability import describe_lift_off, support_model
+
+    robot, ev = result.robot, result.evaluation
+    page.para(f"Load model: {support_model(robot).describe()}.")
+    spans = lift_off_spans(ev.t, ev.stability.loads.lifted, [c.name for c in robot.contacts])
+    if spans:
+        page.para(f"Lift-off: {describe_lift_off(spans, limit=8)}. A lifted drive wheel has no "
+                  f"grip: its traction use is unbounded (shown as lift-off in the figure, "
+                  f"null with bound +inf in summary.json, \"lift-off\" in timeseries.csv).")
+
+
 def _pose_drawings(result):
     robot = result.robot
     out = []
@@ -396,6 +431,7 @@ def sizing_html(result, *, progress=None):
     page.heading("Wheels over the cycle")
     page.figure(*next(fig_iter))
     page.heading("Stability: ZMP, normal loads and traction")
+    _stability_paragraphs(page, result)
     page.figure(*next(fig_iter))
     page.figure(*next(fig_iter))
     if result.worst_torque is not None:
@@ -410,10 +446,15 @@ def sizing_html(result, *, progress=None):
                    left=(0, 3, 4))
         page.figure(*next(fig_iter))
         s = result.stop
-        page.para(f"Shortest stop from {s.speed:g} m/s with the arm in the least-margin pose and "
-                  f"the payload: deceleration {s.deceleration:.2f} m/s², {s.time:.2f} s, "
-                  f"{s.distance:.2f} m (limited by {s.limited_by}), on flat ground. Braking "
-                  f"harder makes the robot slip or tip.")
+        if s.deceleration > 0:
+            page.para(f"Shortest stop from {s.speed:g} m/s with the arm in the least-margin pose "
+                      f"and the payload: deceleration {s.deceleration:.2f} m/s², {s.time:.2f} s, "
+                      f"{s.distance:.2f} m (limited by {s.limited_by}), on flat ground. Braking "
+                      f"harder makes the robot slip or tip.")
+        else:
+            page.para(f"Shortest stop from {s.speed:g} m/s with the arm in the least-margin pose "
+                      f"and the payload: none; no deceleration keeps the robot upright with "
+                      f"grip ({s.limited_by}).")
     page.heading("3-D view")
     page.raw(sizing_view(result))
     page.heading("Drive as described (robot file)")

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..dynamics import drive_inertia
+from ..stability import support_model
 
 __all__ = ["CAUTION", "check_summary", "losses"]
 
@@ -66,6 +67,10 @@ def check_summary(robot):
     lines.append(f"reflected rotor inertia per wheel: J_rotor G^2 = {d.drive.rotor_inertia:.3g} x "
                  f"{d.drive.gear_ratio:g}^2 = {d.drive.reflected_inertia:.4g} kg m^2")
     lines.append(f"losses included: {losses(robot)}")
+    lines.append(f"load model: {support_model(robot).describe()}")
+    lo, hi = d.friction_range
+    lines.append(f"floor: friction {lo:g} to {hi:g} (nominal {robot.ground_friction:g}); "
+                 f"unevenness {d.support.unevenness * 1000:g} mm under any one contact")
     lines += _mimic_lines(robot) + _whole_lines(d)
     lines.append("")
     poses = [("neutral (arm at zero)", robot.configuration())]

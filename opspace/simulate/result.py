@@ -122,6 +122,13 @@ class SimulationResult:
         if self.stability is not None:
             out["min_tip_over_margin"] = _q(float(np.nanmin(self.stability.margin)), "m")
             out["max_traction_use"] = _q(float(np.nanmax(self.stability.traction)), "1")
+            out["load_model"] = self.stability.loads.model
+            from ..stability import lift_off_spans
+            out["drive_wheel_lift_off"] = [
+                {"wheel": sp["contact"], "start": _q(sp["start"], "s"), "end": _q(sp["end"], "s")}
+                for sp in lift_off_spans(self.t[:len(self.stability.margin)],
+                                         self.stability.loads.lifted[:, :2],
+                                         self.coordinate_names[:2])]
         return out
 
     def to_npz(self, path):

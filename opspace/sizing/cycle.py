@@ -172,19 +172,24 @@ def evaluate_cycle(robot, duty, *, sample_rate=None, progress=None):
 
 def _merge_tracks(pieces, n):
     """One StabilityTrack over all samples from per-group tracks."""
-    from ..stability.contacts import ContactLoads
-    from ..stability.wrench import GroundWrench, StabilityTrack
+    from ..stability import StabilityTrack, SupportLoads
+    from ..stability.wrench import GroundWrench
 
     first = pieces[0][1]
     k = first.loads.N.shape[1]
     zmp, margin, edge = np.empty((n, 2)), np.empty(n), np.empty(n, dtype=int)
-    N, lifted, supported = np.empty((n, k)), np.empty((n, k), bool), np.empty(n, bool)
-    traction = np.empty((n, 2))
+    N, supported, tilt = np.empty((n, k)), np.empty(n, bool), np.empty((n, 2))
+    lifted, top, bottom = (np.empty((n, k), bool) for _ in range(3))
+    traction, tyre = np.empty((n, 2)), np.empty((n, 2, 2))
     force, moment, com = np.empty((n, 3)), np.empty((n, 3)), np.empty((n, 3))
     for m, tr_ in pieces:
         zmp[m], margin[m], edge[m], traction[m] = tr_.zmp, tr_.margin, tr_.edge, tr_.traction
         N[m], lifted[m], supported[m] = tr_.loads.N, tr_.loads.lifted, tr_.loads.supported
+        top[m], bottom[m], tilt[m] = tr_.loads.topped_out, tr_.loads.bottomed, tr_.loads.tilt
         force[m], moment[m], com[m] = tr_.wrench.force, tr_.wrench.moment, tr_.wrench.com
-    loads = ContactLoads(N=N, lifted=lifted, supported=supported, model=first.loads.model)
+        tyre[m] = tr_.tyre_force
+    loads = SupportLoads(N=N, lifted=lifted, supported=supported, topped_out=top,
+                         bottomed=bottom, tilt=tilt, model=first.loads.model)
     return StabilityTrack(zmp=zmp, margin=margin, edge=edge, loads=loads, traction=traction,
-                          wrench=GroundWrench(force, moment, com), polygon=first.polygon)
+                          wrench=GroundWrench(force, moment, com), polygon=first.polygon,
+                          tyre_force=tyre)

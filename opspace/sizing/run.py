@@ -107,9 +107,16 @@ def _robot_criteria(robot, ev):
     st = ev.stability
     use = np.where(np.isfinite(st.traction), st.traction, np.inf)
     i, w = np.unravel_index(int(np.argmax(use)), use.shape)
-    traction = Criterion.at_most("traction", float(use[i, w]), 1.0, "1",
-                                 note=f"{WHEELS[w]} at t = {ev.t[i]:.2f} s "
-                                      f"(segment {ev.segment[i] + 1})")
+    note = f"{WHEELS[w]} at t = {ev.t[i]:.2f} s (segment {ev.segment[i] + 1})"
+    lifted = st.loads.lifted[:, :2]
+    if lifted.any():
+        from ..stability import describe_lift_off, lift_off_spans
+        spans = lift_off_spans(ev.t, lifted, [f"the {n}" for n in WHEELS])
+        note = f"lift-off: {describe_lift_off(spans)} (no grip there: traction use unbounded)"
+    elif not st.loads.supported.all():
+        k = int(np.argmin(st.loads.supported))
+        note = f"the robot tips at t = {ev.t[k]:.2f} s (segment {ev.segment[k] + 1}): no grip"
+    traction = Criterion.at_most("traction", float(use[i, w]), 1.0, "1", note=note)
     j = int(np.argmin(st.margin))
     d = float(st.margin[j])
     d_static = float(st.polygon.margin(st.wrench.com[j, :2])[0])

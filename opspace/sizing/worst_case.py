@@ -315,7 +315,10 @@ def shortest_stop(robot, speed, q_arm, *, a_max=20.0, tol=1e-4):
         F = tyre_forces(robot, qs, nu, nu_dot, Q)
         tr = stability_track(robot, qs, nu, nu_dot, F)
         tip_ok = tr.loads.supported[0] and tr.margin[0] >= 0
+        lifted[0] = bool(tr.loads.lifted[0, :2].any())
         return tip_ok, bool(np.all(tr.traction[0] <= 1.0))
+
+    lifted = [False]
 
     with _held(robot):
         robot.set_ground_slope(0.0)
@@ -332,6 +335,12 @@ def shortest_stop(robot, speed, q_arm, *, a_max=20.0, tol=1e-4):
                 hi = mid
         tip_hi, _ = check(min(hi * (1 + 1e-3), a_max))
     limited = "tip-over" if not tip_hi else "traction"
-    a = max(lo, 1e-9)
-    return StopFigures(speed=float(speed), deceleration=float(a), time=speed / a,
-                       distance=speed**2 / (2 * a), limited_by=limited, pose=np.asarray(q_arm))
+    if lo == 0.0:
+        # no deceleration keeps it upright and gripping (e.g. a drive wheel lifted
+        # off already at rest): no stop figure, said so
+        check(0.0)
+        limited = "lift-off of a drive wheel" if lifted[0] else limited
+        return StopFigures(speed=float(speed), deceleration=0.0, time=np.inf, distance=np.inf,
+                           limited_by=limited, pose=np.asarray(q_arm))
+    return StopFigures(speed=float(speed), deceleration=float(lo), time=speed / lo,
+                       distance=speed**2 / (2 * lo), limited_by=limited, pose=np.asarray(q_arm))

@@ -35,25 +35,49 @@ from dataclasses import dataclass
 import numpy as np
 import pinocchio as pin
 
-from .contacts import ContactLoads, normal_loads, support_polygon, traction_use, zmp
+from .contacts import support_polygon, traction_use, zmp
 
 __all__ = ["GroundWrench", "StabilityTrack", "ground_wrench", "stability_figures",
            "stability_track", "tyre_forces"]
 
 
+def _rolling_parts(robot, qs, nus):
+    """(N_static (n, k) N, caster forces (n, n_c, 2) N): the static contact loads
+    the dynamics' rolling resistance uses, and each caster's rolling-resistance
+    force F_c = −C_rr N_c v̂_c in base axes (v_c = (J_x ν, J_y ν) its ground velocity)."""
+    from ..dynamics.joint_space import _rolling_terms, _static_loads
+
+    terms = _rolling_terms(robot)
+    model, data = robot.model, robot.data
+    coms = np.array([pin.centerOfMass(model, data, q, False) for q in qs])
+    N = _static_loads(robot, terms, qs, coms)
+    vx, vy = nus.dot(terms.Jx.T), nus.dot(terms.Jy.T)               # (n, n_c)
+    speed = np.hypot(vx, vy)
+    k = np.divide(terms.c_rr * N[:, 2:], speed, out=np.zeros_like(speed), where=speed > 0)
+    return N, np.stack([-k * vx, -k * vy], axis=-1)
+
+
 def tyre_forces(robot, qs, nus, nu_dots, Q):
-    """Longitudinal ground force on each drive wheel's tyre, (n, 2) N.
+    """Longitudinal ground force each drive wheel's tyre must supply, (n, 2) N.
 
-    The wheel's own balance about its axle:  F_x,i = (Q_i − f_i − (J_s + J_m G²) φ̈_i) / r,
-    with Q_i the wheel torque, f_i its friction and rolling-resistance torque,
-    J_s the wheel's spin inertia and J_m G² the reflected rotor inertia.
+    The wheel's own balance about its axle:
+    F_x,i = (Q_i − f_C,i sign φ̇_i − f_v,i φ̇_i − C_rr N_i r sign φ̇_i − (J_s + J_m G²) φ̈_i) / r,
+    with Q_i the wheel torque, f_C, f_v its drive friction, C_rr N_i r its own
+    rolling-resistance moment (the normal force's offset ahead of the axle) and
+    J_s + J_m G² its spin and reflected rotor inertia.  The casters' rolling
+    resistance is NOT taken off: the drive tyres push against it through the
+    ground, so it is part of the force they need (Newton for the whole robot:
+    Σ F_x,i = m a + Σ_c C_rr N_c along a straight line).
     """
-    from ..dynamics.joint_space import _friction_batch
-
+    qs, nus, nu_dots = (np.atleast_2d(np.asarray(x, dtype=float)) for x in (qs, nus, nu_dots))
     d = robot.description
     J = d.wheel.spin_inertia + d.drive.reflected_inertia
-    f = _friction_batch(robot, qs, nus)[:, :2]
-    return (np.asarray(Q)[:, :2] - f - J * np.asarray(nu_dots)[:, :2]) / robot.wheel_radius
+    w, w_dot = nus[:, :2], nu_dots[:, :2]
+    own = robot.coulomb[:2] * np.sign(w) + robot.viscous[:2] * w
+    if robot.rolling_resistance:
+        N, _ = _rolling_parts(robot, qs, nus)
+        own = own + robot.rolling_resistance * robot.wheel_radius * N[:, :2] * np.sign(w)
+    return (np.asarray(Q)[:, :2] - own - J * w_dot) / robot.wheel_radius
 
 
 @dataclass(frozen=True)
@@ -118,71 +142,90 @@ class StabilityTrack:
 
     zmp (n, 2) m, base frame; margin (n,) m: signed distance of the ZMP to the
     nearest support-polygon edge (> 0 inside); edge (n,) index of that edge
-    (`polygon.edges`); loads: ContactLoads, N (n, k) N per contact in
-    `robot.contacts` order; traction (n, 2): |F_t| / (μ N) per drive wheel
-    (≥ 1 means the wheel slips); wrench: GroundWrench; polygon.
+    (`polygon.edges`); loads: SupportLoads, N (n, k) N per contact in
+    `robot.contacts` order, under the robot's load model; traction (n, 2):
+    |F_t| / (μ N) per drive wheel (≥ 1 means the wheel slips; inf where it has
+    lifted off, nan where the robot tips); tyre_force (n, 2, 2) N: (F_x, F_y) each drive tyre supplies;
+    wrench: GroundWrench; polygon: the chassis' support polygon.
     """
 
     zmp: np.ndarray
     margin: np.ndarray
     edge: np.ndarray
-    loads: ContactLoads
+    loads: object
     traction: np.ndarray
     wrench: GroundWrench
     polygon: object
+    tyre_force: np.ndarray = None
 
 
-def stability_track(robot, qs, nus, nu_dots, wheel_force_x, *, mu=None):
+def stability_track(robot, qs, nus, nu_dots, wheel_force_x, *, mu=None, floor=None):
     """ZMP, tip-over margin, normal loads and traction use over a motion.
 
-    The ground wrench of `ground_wrench` at each state, then `stability_figures`.
+    The ground wrench of `ground_wrench` at each state and the casters'
+    rolling-resistance forces, then `stability_figures`.
 
     Parameters
     ----------
     wheel_force_x : (n, 2) N, longitudinal ground force on each drive wheel
-    mu : ground friction coefficient (default: the description's)
+    mu : ground friction coefficient (default: the description's nominal one)
+    floor : (k,) or (n, k) m, floor dip under each contact (see `support_loads`)
     """
+    qs, nus = np.atleast_2d(qs), np.atleast_2d(nus)
     w = ground_wrench(robot, qs, nus, nu_dots)
     if np.any(w.force[:, 2] <= 0):
         i = int(np.argmax(w.force[:, 2] <= 0))
         raise ValueError(f"the ground's normal force is {w.force[i, 2]:.3g} N <= 0 at sample {i}: "
                          f"the robot would leave the ground")
-    return stability_figures(robot, w, wheel_force_x, mu=mu)
+    caster_force = _rolling_parts(robot, qs, nus)[1] if robot.rolling_resistance else None
+    return stability_figures(robot, w, wheel_force_x, mu=mu, floor=floor,
+                             caster_force=caster_force)
 
 
-def stability_figures(robot, wrench, wheel_force_x, *, mu=None):
+def stability_figures(robot, wrench, wheel_force_x, *, mu=None, floor=None, caster_force=None):
     """ZMP, tip-over margin, normal loads and traction use from ground wrenches.
 
-    The lateral force f_y of the ground wrench is carried by the drive wheels
-    alone (casters swivel freely), shared in proportion to their normal loads;
-    the longitudinal force of drive wheel i is `wheel_force_x[:, i]` (from its
-    torque balance, computed by the caller).  Traction use is
-    sqrt(F_x² + F_y²) / (μ N) (friction circle; Coulomb friction).  The normal
-    loads come from `normal_loads` (the description's load model).
+    Normal loads follow the robot's load model (`support_model`).  The
+    lateral force the drive wheels carry is the ground wrench's f_y less the
+    casters' rolling-resistance forces (casters swivel freely and carry no other
+    side force), shared in proportion to the drive wheels' normal loads; the
+    longitudinal force of drive wheel i is `wheel_force_x[:, i]` (`tyre_forces`).
+    Traction use is sqrt(F_x² + F_y²) / (μ N) (friction circle; Coulomb friction).
 
     Parameters
     ----------
     wrench : GroundWrench with force[:, 2] > 0 (n states)
     wheel_force_x : (n, 2) N, longitudinal ground force on each drive wheel
-    mu : ground friction coefficient (default: the description's)
+    mu : ground friction coefficient (default: the description's nominal one)
+    floor : (k,) or (n, k) m, floor dip under each contact (see `support_loads`)
+    caster_force : (n, n_casters, 2) N, optional, the casters' rolling-resistance
+        forces in base axes (`stability_track` passes them; default none)
 
     Returns
     -------
     StabilityTrack
     """
+    from ._support import support_loads, support_model
+
     mu = robot.ground_friction if mu is None else mu
     w = wrench
-    P = np.array([c.position for c in robot.contacts])
-    polygon = support_polygon(P)
+    model = support_model(robot)
+    polygon = support_polygon(model.element_positions)
     p = zmp(w.force, w.moment)
     margin, edge = polygon.margin(p)
-    loads = normal_loads(P, p, w.force[:, 2])
+    loads = support_loads(model, p, w.force[:, 2], floor=floor)
     N = loads.N[:, :2]
     share = np.divide(N, N.sum(axis=1, keepdims=True), out=np.full_like(N, 0.5),
                       where=np.isfinite(N) & (N.sum(axis=1, keepdims=True) > 0))
-    F_y = w.force[:, 1:2] * share
-    F_t = np.hypot(np.asarray(wheel_force_x, dtype=float), F_y)
-    # where the robot tips (ZMP outside the polygon) the loads are nan: no grip
-    use = traction_use(F_t, np.where(np.isfinite(N), N, 0.0), mu)
+    f_y = w.force[:, 1:2]
+    if caster_force is not None:
+        f_y = f_y - np.asarray(caster_force)[:, :, 1].sum(axis=1, keepdims=True)
+    F_x = np.asarray(wheel_force_x, dtype=float)
+    F_y = f_y * share
+    # inf where a wheel has lifted off; nan where the robot tips (ZMP outside the
+    # polygon: no load distribution exists)
+    use = traction_use(np.hypot(F_x, F_y), np.where(np.isfinite(N), N, 0.0), mu)
+    use = np.where(loads.supported[:, None], use, np.nan)
     return StabilityTrack(zmp=p, margin=np.asarray(margin), edge=np.asarray(edge), loads=loads,
-                          traction=use, wrench=w, polygon=polygon)
+                          traction=use, wrench=w, polygon=polygon,
+                          tyre_force=np.stack([F_x, F_y], axis=-1))
