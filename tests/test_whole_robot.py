@@ -55,7 +55,7 @@ def whole_urdf(left_axis=(0, 1, 0), wheel_kind="continuous"):
               '<origin xyz="-0.02 0 0"/><geometry><sphere radius="0.05"/></geometry>'
               '</collision></link>')
     return urdf(
-        urdf_link("base_link", 20.0, (0.0, 0.0, 0.1), (0.6, 0.8, 1.0, 0, 0, 0)),
+        urdf_link("base_link", 20.0, (0.1, 0.0, 0.1), (0.6, 0.8, 1.0, 0, 0, 0)),
         _joint("battery_joint", "fixed", "base_link", "battery", (-0.1, 0.05, 0.0), RPY_BATTERY),
         urdf_link("battery", 8.0, (0.01, 0.0, 0.02), BATTERY_I),
         _joint("plate_joint", "fixed", "base_link", "arm_plate", (0.15, 0.0, 0.3)),
@@ -100,7 +100,7 @@ def hand_chassis():
     """(m, c, I_c) of the chassis links by hand (base frame B)."""
     Rb = pin.rpy.rpyToMatrix(np.array(RPY_BATTERY))
     parts = [  # (m, c in B, I about own COM in B axes)
-        (20.0, P_ROOT + [0, 0, 0.1], np.diag([0.6, 0.8, 1.0])),
+        (20.0, P_ROOT + [0.1, 0, 0.1], np.diag([0.6, 0.8, 1.0])),
         (8.0, P_ROOT + [-0.1, 0.05, 0] + Rb @ [0.01, 0, 0.02],
          Rb @ opspace.description.inertia_matrix(BATTERY_I) @ Rb.T),
         (1.0, P_ROOT + [0.15, 0, 0.31], np.diag([0.002, 0.002, 0.003])),
