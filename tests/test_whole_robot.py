@@ -247,3 +247,16 @@ def test_world_link_above_a_floating_base_and_massless_wheels(tmp_path):
     doc = whole_doc()
     doc["wheel"] = {"mass": 1.5, "spin_inertia": 0.006, "diameter_inertia": 0.0035}
     assert load_whole(tmp_path, text, doc).description.wheel.mass == 1.5
+
+
+def test_arm_root_higher_up_gives_the_same_robot(tmp_path, rng):
+    """arm_root = the root link: the arm is cut above the plate, whose mass still
+    counts with the chassis; the mount moves, the dynamics do not."""
+    a = load_whole(tmp_path)
+    b = load_whole(tmp_path, doc=whole_doc(arm_root="base_link"))
+    np.testing.assert_allclose(b.description.mount_xyz, P_ROOT, atol=1e-15)
+    assert b.description.base.mass == a.description.base.mass
+    q, nu = a.configuration(arm=rng.uniform(-1, 1, 2)), rng.normal(size=a.nv)
+    ja, jb = opspace.joint_space(a, q, nu), opspace.joint_space(b, q, nu)
+    for x, y in ((ja.M, jb.M), (ja.c, jb.c), (ja.g, jb.g)):
+        np.testing.assert_allclose(x, y, rtol=1e-12, atol=1e-12)

@@ -25,8 +25,9 @@ def losses(robot):
 
 
 def _mimic_lines(robot):
-    return [f"mimic: {f} = {m.multiplier:g} x {m.leader} {m.offset:+g} (follows its leader; "
-            f"not a coordinate)" for f, m in robot.mimic.items()]
+    return [f"mimic: {f} = {m.multiplier:g} x {m.leader} {'-' if m.offset < 0 else '+'} "
+            f"{abs(m.offset):g} (follows its leader; not a coordinate)"
+            for f, m in robot.mimic.items()]
 
 
 def _whole_lines(d):
