@@ -16,7 +16,7 @@ from .dynamics import (InertiaEllipsoid, TaskSpaceTerms, cartesian_task_space, e
 from .control import BasePlan, CommandInfo, Gains, OperationalSpaceController, Target
 from .errors import ConfigError, ModelError
 from .model import GRAVITY, MobileManipulator, load_robot
-from . import contact, sizing, stability, trajectory  # noqa: E402  (sub-modules as namespaces)
+from . import contact, identify, sizing, stability, trajectory  # noqa: E402  (sub-modules as namespaces)
 from .simulate import SimulationError, SimulationResult, run_scenario, simulate  # noqa: E402
 from . import sweep  # noqa: E402
 from .sweep import load_sweep, run_sweep  # noqa: E402
@@ -41,6 +41,7 @@ __all__ = [
     "friction",
     "Gains",
     "GRAVITY",
+    "identify",
     "inertia_ellipsoid",
     "InertiaEllipsoid",
     "inverse_dynamics",

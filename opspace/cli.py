@@ -4,6 +4,7 @@ file or argument prints one line and exits with status 2."""
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 from pathlib import Path
 
@@ -73,7 +74,7 @@ def _cmd_size(args):
 
     path = Path(args.cycle) if args.cycle else demo_cycle_path()
     duty = load_duty_cycle(path)
-    robot = load_robot(duty.robot_path)
+    robot = load_robot(args.robot or duty.robot_path)   # --robot: e.g. an identified one
     duty = load_duty_cycle(path, robot=robot)          # cross-checks before computing
     catalogue = args.catalogue
     if catalogue is not None:
@@ -119,6 +120,9 @@ def _cmd_simulate(args):
 
     path = Path(args.scenario) if args.scenario else demo_robot_path().with_name("pick.toml")
     scenario = load_scenario(path)
+    if args.robot:                                      # e.g. an identified robot
+        from dataclasses import replace
+        scenario = replace(scenario, robot_path=Path(args.robot).resolve())
     run = ScenarioRun(scenario, payload_mass_error=args.payload_error,   # validates it all
                       compiled=False if args.reference_loop else None)
     out = Path(args.output)
@@ -189,6 +193,57 @@ def _output_dir(path):
 # ---------------------------------------------------------- end opspace contact
 
 
+# ------------------------------------------------------------- opspace identify
+def _cmd_identify(args):
+    from .description import read_toml
+    from .description.motion_log import load_motion_log
+    from .identify import identify
+    from .model import load_robot
+    from .report.identify import write_identify_outputs
+
+    robot = load_robot(args.robot)
+    doc = read_toml(args.robot)
+    if "arm_urdf" not in doc.get("robot", {}):
+        raise ConfigError(f"{Path(args.robot).name}: identification writes back the "
+                          f"arm-URDF form of a description ([robot] arm_urdf)")
+    constants = dict(_torque_constant(text) for text in args.torque_constant or ())
+    logs = []
+    for path in args.logs:
+        logs.append(load_motion_log(path, robot, torque_constants=dict(constants)))
+    out = _output_dir(args.output)
+    result = identify(robot, logs, cutoff=args.cutoff)
+    urdf_text = robot.description.arm_urdf.read_text(encoding="utf-8")
+    paths = write_identify_outputs(result, logs, doc, urdf_text, out)
+    fit = result.fit
+    kept = f"; kept at the description's values: {len(result.consistency)}" \
+        if result.consistency else ""
+    print(f"IDENTIFIED: {len(fit.base.index)} identifiable combinations of "
+          f"{result.params.size} parameters, condition number {fit.condition:.3g}{kept}")
+    if result.params.payload is not None:
+        print(f"  payload mass {result.value('payload.m'):.4g} kg (description "
+              f"{result.prior('payload.m'):.4g} kg)")
+    for c in robot.coordinate_names[:2]:
+        print(f"  {c}: Coulomb {result.value(c + '.coulomb'):.4g} N·m, viscous "
+              f"{result.value(c + '.viscous'):.4g} N·m·s/rad")
+    print(f"page: {paths['identify.html']}; identified robot: {paths['identified/robot.toml']} "
+          f"(use it with check, size --robot, simulate --robot, contact)")
+    print("Estimates from logged motion: verify on hardware before relying on them.")
+    return 0
+
+
+def _torque_constant(text):
+    name, sep, value = text.partition("=")
+    try:
+        k = float(value)
+    except ValueError:
+        k = math.nan
+    if not sep or not name or not (0.0 < k < 100.0):
+        raise ConfigError(f"--torque-constant {text!r}: expected COORDINATE=K with K in "
+                          f"(0, 100) N·m/A")
+    return name, k
+# --------------------------------------------------------- end opspace identify
+
+
 # ---------------------------------------------------------------- opspace sweep
 def _cmd_sweep(args):
     from .sweep import load_sweep, progress_bar, run_sweep
@@ -233,6 +288,13 @@ def _samples_arg(text):
     return n
 
 
+def _cutoff_arg(text):
+    v = float(text)
+    if not 0.01 <= v <= 1000.0:       # nan fails both comparisons
+        raise argparse.ArgumentTypeError(f"must be a frequency within 0.01..1000 Hz, got {text}")
+    return v
+
+
 def build_parser():
     parser = argparse.ArgumentParser(
         prog="opspace",
@@ -246,6 +308,8 @@ def build_parser():
     p.add_argument("-o", "--output", default="opspace-report",
                    help="output directory (default: ./opspace-report)")
     p.add_argument("--catalogue", help="motor and gearbox catalogue TOML (default: the cycle's)")
+    p.add_argument("--robot", help="robot description TOML instead of the cycle's (e.g. the "
+                                   "one opspace identify wrote)")
     p.add_argument("--no-search", action="store_true",
                    help="skip the worst-case arm search and the shortest-stop figure")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
@@ -257,6 +321,8 @@ def build_parser():
     p.add_argument("-o", "--output", default="opspace-simulation",
                    help="output directory (default: ./opspace-simulation)")
     p.add_argument("--integrator", choices=("rk4", "euler"), help="override the scenario's")
+    p.add_argument("--robot", help="robot description TOML instead of the scenario's (e.g. "
+                                   "the one opspace identify wrote)")
     p.add_argument("--payload-error", type=float, default=None,
                    help="relative payload-mass error of the controller's model (e.g. 0.1)")
     p.add_argument("--no-animation", action="store_true", help="skip the GIF")
@@ -285,6 +351,18 @@ def build_parser():
     p.add_argument("--samples", type=_samples_arg, default=1500,
                    help="arm configurations sampled for a map (default 1500)")
     p.set_defaults(func=_cmd_contact)
+    # --------------------------------------------------------- opspace identify
+    p = sub.add_parser("identify", help="identify the robot's parameters from logged motion "
+                                        "(CSV) and write an identified description")
+    p.add_argument("logs", nargs="+", help="motion logs (CSV, see the README)")
+    p.add_argument("--robot", required=True, help="robot description TOML")
+    p.add_argument("-o", "--output", default="opspace-identify",
+                   help="output directory (default: ./opspace-identify)")
+    p.add_argument("--cutoff", type=_cutoff_arg, default=10.0,
+                   help="zero-phase low-pass cut-off for the derivatives, Hz (default 10)")
+    p.add_argument("--torque-constant", action="append", metavar="COORDINATE=K",
+                   help="motor torque constant (N·m/A) for a current:COORDINATE column")
+    p.set_defaults(func=_cmd_identify)
     # ------------------------------------------------------------ opspace sweep
     p = sub.add_parser("sweep", help="size many design points (a sweep file) on local "
                                      "processes or a Dask cluster; CSV and HTML page")

@@ -222,3 +222,22 @@ def test_scene_pages_draw_offline_in_headless_chromium(tmp_path):
         assert v["frames"] == len(scene.labels)
         assert v["drawn"] > 0.01, v          # the robot covers part of the canvas
         assert v["empty"] < 1e-3, v          # and nothing but it does
+
+
+def test_a_mimic_finger_is_drawn_where_its_leader_puts_it(tmp_path):
+    # URDF <mimic>: follower = multiplier × leader + offset (the URDF joint
+    # specification); the palm by the planar closed form as above
+    from test_mimic import K, O, gripper_urdf
+
+    box = _visual('<box size="0.02 0.01 0.04"/>')
+    text = gripper_urdf().replace('<link name="fa">', f'<link name="fa">{box}').replace(
+        '<link name="fb">', f'<link name="fb">{box}')
+    robot = make_robot(tmp_path, text)
+    q1, q2, qa = 0.3, -0.8, 0.03
+    scene = robot_scene(robot, [robot.configuration(arm=[q1, q2, qa])], labels=["a"], title="t")
+    mount = np.array(base_doc()["mount"]["xyz"])
+    palm = mount + 0.4 * np.array([math.cos(q1), 0, math.sin(q1)])
+    R = _rot_y(-(q1 + q2))
+    for link, y in (("fa", 0.02 + qa), ("fb", -0.02 + K * qa + O)):
+        pose = scene.poses[0, _part(scene, f"{link} (visual box)")].astype(float)
+        np.testing.assert_allclose(pose[:3], palm + R @ [0.05, y, 0.0], atol=1e-6)

@@ -77,7 +77,7 @@ class Scene3D:
                 "geometries": list(self.geometries), "parts": list(self.parts),
                 "poses": _b64(np.ascontiguousarray(self.poses, np.float32)),
                 "shape": list(self.poses.shape), "notes": list(self.notes),
-                "follow": 0}  # the chassis (the first part): an animation's camera follows it
+                "follow": 0}  # the base frame (the first part): an animation's camera follows it
 
 
 def _b64(a):
@@ -153,10 +153,31 @@ def _se3(xyz, rpy=(0.0, 0.0, 0.0)):
     return pin.SE3(pin.rpy.rpyToMatrix(np.asarray(rpy, float)), np.asarray(xyz, float))
 
 
-def _base_parts(b, robot, support):
-    """Chassis, wheels, casters and the support polygon (base frame)."""
+def _drawn_joints(robot, shapes):
+    """Joints (ids) that carry a link the URDF draws, other than the arm's own
+    links: a whole-robot URDF that draws its chassis or wheels replaces the
+    drawing from the description (the arm's root link also rides on the base
+    joint, but it is not the chassis)."""
+    arm = getattr(robot.description, "arm_model", None)
+    arm_links = set() if arm is None else {f.name for f in arm.frames}
+    out = set()
+    for s in shapes.shapes:
+        fid = _frame(robot, s.link)
+        if fid is not None and s.link not in arm_links:
+            out.add(robot.model.frames[fid].parentJoint)
+    return out
+
+
+def _base_parts(b, robot, support, drawn):
+    """Anchor (hidden; the camera follows it), chassis, wheels, casters and the
+    support polygon, in the base frame; the chassis and each wheel only when
+    the URDF does not draw them (joints in `drawn`)."""
     r, half = robot.wheel_radius, robot.half_track
     base = _frame(robot, "base")
+    anchor = b.geometry({"kind": "sphere", "radius": 1e-3})
+    b.part("base frame", anchor, "#000000",
+           lambda X: (*X[base].translation, *pin.Quaternion(X[base].rotation).coeffs(), HIDDEN))
+    base_drawn = robot.model.frames[base].parentJoint in drawn
     fp = robot.description.base.footprint
     casters = [c.position for c in robot.contacts if not c.driven]
     if fp is None:  # no outline given: a plate over the contacts, up to the mount
@@ -165,15 +186,18 @@ def _base_parts(b, robot, support):
               max(robot.description.mount_xyz[2], 2.2 * r))
     x0, x1, y0, y1, top = fp[:5]
     bottom = min(0.5 * r, 0.5 * top)
-    g = b.geometry({"kind": "box", "size": [x1 - x0, y1 - y0, top - bottom]})
-    b.part("chassis", g, _CHASSIS, _attached(base, _se3(((x0 + x1) / 2, (y0 + y1) / 2,
-                                                          (top + bottom) / 2))), opacity=0.45)
+    if not base_drawn:
+        g = b.geometry({"kind": "box", "size": [x1 - x0, y1 - y0, top - bottom]})
+        b.part("chassis", g, _CHASSIS, _attached(base, _se3(((x0 + x1) / 2, (y0 + y1) / 2,
+                                                              (top + bottom) / 2))), opacity=0.45)
     width = min(0.5 * r, 0.35 * half)
     tyre = b.geometry({"kind": "cylinder", "radius": r, "length": width})
     spoke = b.geometry({"kind": "box", "size": [1.7 * r, 1.04 * width, 0.16 * r]})
     axle_to_z = _se3((0.0, 0.0, 0.0), (math.pi / 2, 0.0, 0.0))
     for name in ("wheel_right", "wheel_left"):
         fid = _frame(robot, name)
+        if fid is None or robot.model.frames[fid].parentJoint in drawn:
+            continue
         b.part(name, tyre, _WHEEL, _attached(fid, axle_to_z))
         b.part(f"{name} marker", spoke, _SPOKE, _attached(fid, pin.SE3.Identity()))
     rc = 0.3 * r
@@ -187,13 +211,8 @@ def _base_parts(b, robot, support):
                opacity=0.6)
 
 
-def _arm_shapes(b, robot, shapes):
-    """Parts from the URDF's shapes; returns how many were drawn."""
-    from ..description.visuals import read_shapes
-
-    d = robot.description
-    found = shapes if shapes is not None else read_shapes(
-        d.arm_urdf, package_paths=getattr(d, "package_paths", None))
+def _arm_shapes(b, robot, found):
+    """Parts from the URDF's shapes (UrdfShapes); returns how many were drawn."""
     b.notes += list(found.notes)
     links, drawn = [], 0
     for s in found.shapes:
@@ -275,8 +294,13 @@ def robot_scene(robot, qs, *, labels, title, times=None, support=None, markers=(
     qs = np.atleast_2d(np.asarray(qs, float))
     if len(labels) != len(qs) or (times is not None and len(times) != len(qs)):
         raise ValueError(f"`labels` and `times` need one entry per configuration ({len(qs)})")
+    if shapes is None:
+        from ..description.visuals import read_shapes
+
+        d = robot.description
+        shapes = read_shapes(d.arm_urdf, package_paths=getattr(d, "package_paths", None))
     b = _Builder()
-    _base_parts(b, robot, support)
+    _base_parts(b, robot, support, _drawn_joints(robot, shapes))
     if _arm_shapes(b, robot, shapes) == 0:
         pts = [robot.frame_placements(qs[0], [robot.tool_frame_id])[0].translation]
         reach = float(np.linalg.norm(pts[0] - np.r_[robot.description.mount_xyz]))
