@@ -18,9 +18,9 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from opspace.description.scenario import load_scenario
-from opspace.report.simulation import simulation_text, write_simulation_outputs
-from opspace.simulate import ScenarioRun
+from opspace.description import load_scenario
+from opspace.report import simulation_text, write_simulation_outputs
+from opspace.simulation import ScenarioRun
 
 SCENARIO = Path(__file__).resolve().parent.parent / "models" / "marmot" / "pick.toml"
 

@@ -14,17 +14,17 @@ from .dynamics import (DriveInertia, JointSpaceTerms, drive_inertia, forward_dyn
 from .dynamics import (InertiaEllipsoid, TaskSpaceTerms, cartesian_task_space, effective_mass,
                        inertia_ellipsoid, task_space)
 from .control import BasePlan, CommandInfo, Gains, OperationalSpaceController, Target
+from ._version import __version__
 from .errors import ConfigError, ModelError
 from .model import GRAVITY, MobileManipulator, load_robot
 from . import contact, identify, sizing, stability, trajectory  # noqa: E402  (sub-modules as namespaces)
-from .simulate import SimulationError, SimulationResult, run_scenario, simulate  # noqa: E402
+from .simulation import SimulationError, SimulationResult, run_scenario, simulate  # noqa: E402
 from . import sweep  # noqa: E402
 from .sweep import load_sweep, run_sweep  # noqa: E402
 from .sizing import SizingResult, size  # noqa: E402
 from . import limits  # noqa: E402
 from .limits import MotionLimits, motion_limits, motion_limits_batch  # noqa: E402
 
-__version__ = "0.1.0"
 
 __all__ = [
     "BasePlan",

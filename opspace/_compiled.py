@@ -40,23 +40,21 @@ def available():
     return _module() is not None
 
 
-def kernel_plant(robot, locked, friction):
-    """A compiled `Plant` of the robot (see _kernel.cpp), or None if unavailable.
+def kernel_plant(S, free, coulomb, viscous, friction, A_pinv, casters, c_rr, r):
+    """A compiled `Plant` (see _kernel.cpp) from its arrays, or None if unavailable.
 
-    locked (nv,) bool: coordinates held still; friction: Coulomb, viscous and
-    rolling resistance on/off.
+    S (nv_pin, nv) reduction map; free (nv,) 1.0 for a moving coordinate, 0.0
+    for one held still; coulomb, viscous (nv,); friction: Coulomb, viscous and
+    rolling resistance on/off; A_pinv (k, 3) static contact-load rows; casters
+    (k − 2, 4) ground-velocity rows; c_rr rolling-resistance coefficient;
+    r wheel radius, m.  `opspace.dynamics` assembles them from a robot.
     """
     k = _module()
-    if k is None or robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows (NumPy loop)
+    if k is None:
         return None
-    from .dynamics.joint_space import _rolling_terms
-    terms = _rolling_terms(robot)
-    casters = np.array(terms.caster_rows, dtype=float).reshape(-1, 4)
-    free = (~np.asarray(locked, bool)).astype(float)
-    return k.Plant(np.asarray(robot.S, float), free, np.asarray(robot.coulomb, float),
-                   np.asarray(robot.viscous, float), bool(friction),
-                   np.asarray(terms.A_pinv, float), casters, float(robot.rolling_resistance),
-                   float(robot.wheel_radius))
+    return k.Plant(np.asarray(S, float), np.asarray(free, float), np.asarray(coulomb, float),
+                   np.asarray(viscous, float), bool(friction), np.asarray(A_pinv, float),
+                   np.asarray(casters, float).reshape(-1, 4), float(c_rr), float(r))
 
 
 def frame_placements(robot, qs, frame_id):

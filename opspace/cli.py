@@ -67,7 +67,7 @@ class _Progress:
 
 
 def _cmd_size(args):
-    from .description.duty import load_duty_cycle
+    from .description import load_duty_cycle
     from .model import load_robot
     from .report import write_sizing_report
     from .sizing import size
@@ -78,7 +78,7 @@ def _cmd_size(args):
     duty = load_duty_cycle(path, robot=robot)          # cross-checks before computing
     catalogue = args.catalogue
     if catalogue is not None:
-        from .description.catalogue import load_catalogue
+        from .description import load_catalogue
         catalogue = load_catalogue(catalogue)
     out = Path(args.output)
     if out.exists() and not out.is_dir():
@@ -114,9 +114,9 @@ def _cmd_size(args):
 
 
 def _cmd_simulate(args):
-    from .description.scenario import load_scenario
-    from .report.simulation import simulation_text, write_simulation_outputs
-    from .simulate import ScenarioRun, SimulationError
+    from .description import load_scenario
+    from .report import simulation_text, write_simulation_outputs
+    from .simulation import ScenarioRun, SimulationError
 
     path = Path(args.scenario) if args.scenario else demo_robot_path().with_name("pick.toml")
     scenario = load_scenario(path)
@@ -154,7 +154,7 @@ def _cmd_simulate(args):
 def _cmd_contact(args):
     from .contact import check_contacts, load_contact_points, load_regions
     from .model import load_robot
-    from .report.contact import write_contact_report
+    from .report import write_contact_report
 
     robot = load_robot(args.robot or demo_robot_path())
     points = load_contact_points(args.points) if args.points else None
@@ -196,10 +196,10 @@ def _output_dir(path):
 # ------------------------------------------------------------- opspace identify
 def _cmd_identify(args):
     from .description import read_toml
-    from .description.motion_log import load_motion_log
+    from .description import load_motion_log
     from .identify import identify
     from .model import load_robot
-    from .report.identify import write_identify_outputs
+    from .report import write_identify_outputs
 
     robot = load_robot(args.robot)
     doc = read_toml(args.robot)
@@ -274,6 +274,69 @@ def _cmd_sweep(args):
 # ------------------------------------------------------------ end opspace sweep
 
 
+# --------------------------------------------------------------- opspace limits
+def _limits_candidate(args):
+    """(motor, gearbox, ratio) from --catalogue/--motor/--gearbox/--ratio, or None."""
+    given = [args.motor, args.gearbox, args.ratio]
+    if args.catalogue is None:
+        if any(x is not None for x in given):
+            raise ConfigError("--motor, --gearbox and --ratio need --catalogue FILE")
+        return None
+    from .description import load_catalogue
+
+    cat = load_catalogue(args.catalogue)
+    if any(x is None for x in given):
+        raise ConfigError(f"--catalogue {Path(args.catalogue).name}: give --motor NAME, "
+                          f"--gearbox NAME and --ratio G to choose the drive candidate")
+    try:
+        return cat.motor(args.motor), cat.gearbox(args.gearbox), args.ratio
+    except KeyError as exc:
+        raise ConfigError(str(exc.args[0])) from None
+
+
+def _cmd_limits(args):
+    from .limits import limits_study
+    from .model import load_robot
+    from .report import write_limits_report
+
+    robot = load_robot(args.robot or demo_robot_path())
+    candidate = _limits_candidate(args)
+    if args.points < 2:
+        raise ConfigError(f"--points must be >= 2, got {args.points}")
+    out = Path(args.output)
+    if out.exists() and not out.is_dir():
+        raise ConfigError(f"-o {out}: exists and is not a directory")
+    payload = args.payload
+    if payload is None:
+        payload = robot.description.payload is not None
+    options = dict(payload=payload, friction=args.friction, grade=args.grade, speed=args.speed,
+                   turn_speed=args.turn_speed, zmp_margin=args.zmp_margin,
+                   traction_ceiling=args.traction_ceiling, candidate=candidate)
+    views = [v for v in args.views.split(",") if v]
+    bad = [v for v in views if v not in ("side", "top")]
+    if bad:
+        raise ConfigError(f"--views: {bad[0]!r} is not a view (side, top)")
+    progress = _Progress(not args.quiet and sys.stderr.isatty())
+    try:
+        study = limits_study(robot, views=views, points=args.points, posture=args.posture,
+                             stopping_length=args.stopping_length,
+                             reaction_time=args.reaction_time, progress=progress, **options)
+        paths = write_limits_report(study, robot, out)
+    finally:
+        progress.close()
+    print(f"{study.status.upper()}: motion limits of {study.robot} ({study.drive})")
+    for k, name in enumerate(study.poses.names):
+        vals = ", ".join(f"{n.replace('_acceleration', '')} {study.poses.values[n][k]:.3g} "
+                         f"({study.poses.limited_by[n][k]})"
+                         for n in ("acceleration", "deceleration", "yaw_acceleration",
+                                   "lateral_acceleration"))
+        print(f"  {name:<16} {study.poses.status[k] if study.poses.status[k] != 'ok' else vals}")
+    print(f"page: {paths['html']}; lookup table: {paths['csv']}, {paths['json']}")
+    print("Model estimates: validate the planner's limiter on the robot, follow the applicable "
+          "safety standards.")
+    return 0 if study.status == "ok" else 1
+
+
 def _speed_arg(text):
     v = float(text)
     if not 0.0 <= v <= 20.0:          # nan fails both comparisons
@@ -331,6 +394,38 @@ def build_parser():
                         "(same equations, ~5x slower; for cross-checks)")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_simulate)
+    p = sub.add_parser("limits", help="motion limits of the base over the arm's workspace "
+                       "(maps, named poses) for a motion planner")
+    p.add_argument("robot", nargs="?", help="robot description TOML (default: the bundled demo)")
+    p.add_argument("-o", "--output", default="opspace-limits",
+                   help="output directory (default: opspace-limits)")
+    pay = p.add_mutually_exclusive_group()
+    pay.add_argument("--payload", dest="payload", action="store_true", default=None,
+                     help="hold the described payload (default when one is described)")
+    pay.add_argument("--no-payload", dest="payload", action="store_false")
+    p.add_argument("--friction", type=float, help="tyre-floor friction (default: described)")
+    p.add_argument("--grade", type=float, default=0.0, help="ground rise/run, facing uphill")
+    p.add_argument("--speed", type=float, default=0.0, help="base speed, m/s (default 0)")
+    p.add_argument("--turn-speed", type=float, help="speed of the turn for the lateral "
+                   "limit, m/s (default: --speed, else half the top speed, else 1)")
+    p.add_argument("--zmp-margin", type=float, default=0.0,
+                   help="least ZMP distance to a support edge, m (default 0)")
+    p.add_argument("--traction-ceiling", type=float, default=1.0,
+                   help="largest traction use, in (0, 1] (default 1)")
+    p.add_argument("--catalogue", help="catalogue TOML of a drive candidate")
+    p.add_argument("--motor", help="the candidate's motor (name in --catalogue)")
+    p.add_argument("--gearbox", help="the candidate's gearbox family (name in --catalogue)")
+    p.add_argument("--ratio", type=float, help="the candidate's gear ratio")
+    p.add_argument("--stopping-length", type=float,
+                   help="protective field: stopping length, m (adds the top speed per pose)")
+    p.add_argument("--reaction-time", type=float, default=0.0,
+                   help="protective field: reaction time before braking, s (default 0)")
+    p.add_argument("--points", type=int, default=21, help="grid points per map axis (21)")
+    p.add_argument("--views", default="side,top", help="maps: side, top or both (side,top)")
+    p.add_argument("--posture", help="named pose the maps' redundancy starts from "
+                   "(default: the arm at zero)")
+    p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
+    p.set_defaults(func=_cmd_limits)
     # ---------------------------------------------------------- opspace contact
     p = sub.add_parser("contact", help="effective mass and permissible contact speed of the "
                                        "robot's contact points (two-body model pre-check)")

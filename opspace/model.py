@@ -30,15 +30,13 @@ from dataclasses import dataclass
 import numpy as np
 import pinocchio as pin
 
+from ._common import GRAVITY
+from ._common import as_vector as _finite
 from .description import (Payload, RobotDescription, arm_joint_names, arm_position_limits,
                           independent_joint_names, inertia_matrix, load_description)
-from ._checks import as_vector as _finite
 from .errors import ConfigError
 
 __all__ = ["GRAVITY", "MobileManipulator", "load_robot"]
-
-#: standard gravity, m/s² (CGPM 1901; Pinocchio's default is 9.81)
-GRAVITY = 9.80665
 
 BASE_JOINT = "base_planar"
 WHEEL_JOINTS = ("wheel_right", "wheel_left")

@@ -156,7 +156,7 @@ def test_loaders_take_parsed_documents_as_the_files(tmp_path):
     # the sweep hands the loaders parsed documents and the URDF's text: the
     # result is the same as from the files, and messages still name the file
     from opspace.description import read_toml
-    from opspace.description.catalogue import load_catalogue
+    from opspace.description import load_catalogue
     robot_path = DEMO
     doc = read_toml(robot_path)
     urdf = (robot_path.parent / doc["robot"]["arm_urdf"]).read_text()

@@ -11,7 +11,7 @@ import pytest
 import sympy as sp
 
 import opspace
-from opspace.description.catalogue import Gearbox, Motor, load_catalogue
+from opspace.description import Gearbox, Motor, load_catalogue
 from opspace.sizing import (Criterion, WheelDuty, check_candidate, cycle_energy, cycle_rms,
                             drive_figures, evaluate_catalogue, motor_torque, sweep_ratios)
 from conftest import REPO, write_toml

@@ -16,7 +16,7 @@ from conftest import DEMO, base_doc, make_robot, two_link_urdf, urdf, urdf_joint
 import opspace
 from opspace import identify
 from opspace.cli import main
-from opspace.description.motion_log import load_motion_log
+from opspace.description import load_motion_log
 
 G = 9.80665
 

@@ -17,9 +17,10 @@ import pytest
 import opspace
 from opspace import _compiled
 from opspace.control import BasePlan, OperationalSpaceController, Target
-from opspace.description.scenario import load_scenario
-from opspace.simulate import ScenarioRun, simulate
-from opspace.simulate.loop import _Plant, _rk4
+from opspace.description import load_scenario
+from opspace.simulation import ScenarioRun, simulate
+from opspace.dynamics._joint_space import compiled_plant
+from opspace.simulation._loop import _Plant, _rk4
 from conftest import DEMO, random_state
 
 needs_kernel = pytest.mark.skipif(not _compiled.available(),
@@ -50,7 +51,7 @@ def test_plant_step_equals_numpy(demo, rng, integrator, friction, locked):
     lock = np.zeros(demo.nv, bool)
     if locked == "wheels":
         lock[:2] = True
-    kernel = _compiled.kernel_plant(demo, lock, friction)
+    kernel = compiled_plant(demo, lock, friction)
     plant = _Plant(demo, lock, friction)
     h, S = 1e-3, demo.S
     for _ in range(5):
@@ -80,7 +81,7 @@ def test_plant_with_a_payload_equals_numpy(demo, rng):
     with demo.kept():
         demo.attach_payload(demo.description.payload)
         lock = np.zeros(demo.nv, bool)
-        kernel, plant = _compiled.kernel_plant(demo, lock, True), _Plant(demo, lock, True)
+        kernel, plant = compiled_plant(demo, lock, True), _Plant(demo, lock, True)
         q, nu = random_state(demo, rng)
         Q = rng.normal(size=demo.nv)
         plant.start_step(q)
@@ -94,7 +95,7 @@ def test_plant_reports_a_mass_matrix_that_is_not_positive_definite(demo):
     # a zero-inertia coordinate makes M singular: the kernel returns 1 (not PD)
     with demo.kept():
         lock = np.zeros(demo.nv, bool)
-        kernel = _compiled.kernel_plant(demo, lock, False)
+        kernel = compiled_plant(demo, lock, False)
         model = demo.model
         saved = model.inertias[model.njoints - 1], model.armature.copy()
         try:

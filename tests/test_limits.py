@@ -166,7 +166,7 @@ def test_limits_consistent_on_an_invented_robot(tmp_path, rng):
                    com=(-0.1, 0.02, 0.35), J_s=0.004, J_m=2e-5, ground={'friction': 0.9},
                    drive__torque_limit=8.0)
     causes = set()
-    for _ in range(8):
+    for _ in range(5):
         q = robot.configuration(arm=rng.uniform(-1.5, 2.5, 2))
         for mu, policy in ((0.5, {"zmp_margin": 0.0, "traction_ceiling": 1.0}),
                            (3.0, {"zmp_margin": 0.03, "traction_ceiling": 0.6})):

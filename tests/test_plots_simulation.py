@@ -1,4 +1,4 @@
-"""Rendering tests of `opspace.plots.simulation` (the simulation run's figures).
+"""Rendering tests of `opspace.plots` (the simulation run's figures).
 
 These are rendering tests, not numerical ones: the module computes no
 physics, so the figures themselves have no outside numerical reference to be
@@ -30,8 +30,8 @@ from matplotlib.patches import Polygon
 from PIL import Image
 from scipy.spatial.transform import Rotation
 
-from opspace.plots.simulation import (animation, base_path, efforts, frames_from_result,
-                                      tracking_error)
+from opspace.plots import (animation, base_path, efforts, frames_from_result,
+                           tracking_error)
 
 from conftest import make_robot, png_checked
 
@@ -335,9 +335,9 @@ def test_simulation_page_is_self_contained(tmp_path):
 
     from PIL import Image
 
-    from opspace.description.scenario import load_scenario
-    from opspace.report.simulation import simulation_html, write_simulation_outputs
-    from opspace.simulate import ScenarioRun
+    from opspace.description import load_scenario
+    from opspace.report import simulation_html, write_simulation_outputs
+    from opspace.simulation import ScenarioRun
     from conftest import DEMO
     run = ScenarioRun(load_scenario(DEMO.with_name("pick.toml")))
     result = run.run()

@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 
 import opspace
-from opspace.description.scenario import load_scenario
-from opspace.simulate import (PayloadEvent, ScenarioRun, SimulationError,
+from opspace.description import load_scenario
+from opspace.simulation import (PayloadEvent, ScenarioRun, SimulationError,
                               simulate)
 from conftest import DEMO, base_doc, make_robot, two_link_urdf, with_overrides, write_toml
 

@@ -9,8 +9,8 @@ import numpy as np
 import pytest
 
 import opspace
-from opspace.description.duty import load_duty_cycle
-from opspace.sizing.cycle import evaluate_cycle
+from opspace.description import load_duty_cycle
+from opspace.sizing import evaluate_cycle
 from conftest import base_doc, make_robot, two_link_urdf, write_toml
 
 G = opspace.GRAVITY

@@ -25,7 +25,7 @@ import pytest
 
 import opspace
 from opspace.cli import main as cli_main
-from opspace.report.sizing import sizing_summary
+from opspace.report import sizing_summary
 from opspace.sweep import (latin_hypercube, load_sweep, pareto_front, parse_figure, run_sweep)
 
 REPO = Path(__file__).resolve().parent.parent
@@ -228,8 +228,8 @@ def test_local_processes_and_a_dask_local_cluster_agree(basic_run, dask_cluster,
 
 def test_each_worker_loads_a_robot_once_per_content(files):
     from opspace.sweep import evaluate_point
-    from opspace.sweep.engine import Context, Task
-    from opspace.sweep.worker import _CACHE
+    from opspace.sweep._engine import Context, Task
+    from opspace.sweep._worker import _CACHE
 
     path = write_sweep(files, """
 [[parameter]]
@@ -252,7 +252,7 @@ values = [0.8, 0.9, 1.0]
 
 def test_motor_choice_and_one_gear_ratio_equal_a_hand_edited_catalogue(files, tmp_path):
     from opspace.sweep import evaluate_point
-    from opspace.sweep.engine import Context, Task
+    from opspace.sweep._engine import Context, Task
 
     path = write_sweep(files, """
 [fixed]
@@ -285,7 +285,7 @@ values = [16.0, 25.0]
     (tmp_path / "drives.toml").write_text(edited)
     result = opspace.size(files / "short.toml", catalogue=tmp_path / "drives.toml", search=False)
     check = result.sweeps[0].checks[0]
-    from opspace.sizing.run import drive_margin
+    from opspace.sizing import drive_margin
     assert (result.sweeps[0].motor, check.ratio, len(result.sweeps)) == ("M-60", 25.0, 1)
     assert f["candidates[0].checks[0].drive_margin"] == drive_margin(check)   # bit for bit
 
@@ -557,13 +557,12 @@ def test_bad_figure_is_found_before_any_point_is_sized(files, tmp_path):
 
 def test_a_worker_holds_pinocchio_and_blas_to_one_thread():
     # a fresh interpreter, as a worker process: the batch inverse dynamics must
-    # ask Pinocchio for 1 thread there (regression: the patch once landed on the
-    # re-exported function `opspace.dynamics.joint_space` instead of the module)
-    code = ("import importlib, threadpoolctl\n"
-            "from opspace.sweep.worker import _setup_worker\n"
+    # ask Pinocchio for 1 thread there (`opspace.dynamics.set_batch_threads`)
+    code = ("import threadpoolctl\n"
+            "from opspace.dynamics import batch_threads\n"
+            "from opspace.sweep._worker import _setup_worker\n"
             "_setup_worker()\n"
-            "m = importlib.import_module('opspace.dynamics.joint_space')\n"
-            "print(m._threads(), max(i['num_threads'] for i in threadpoolctl.threadpool_info()))\n")
+            "print(batch_threads(), max(i['num_threads'] for i in threadpoolctl.threadpool_info()))\n")
     res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
     assert res.returncode == 0, res.stderr
     assert res.stdout.split() == ["1", "1"]

@@ -12,9 +12,9 @@ import pytest
 import opspace
 from browser import open_view3d, require_browser
 from conftest import base_doc, make_robot, urdf, urdf_joint, urdf_link, write_toml
-from opspace.description.visuals import read_shapes
+from opspace.description import read_shapes
 from opspace.report import Marker, robot_scene, scene_html
-from opspace.report.html import Page
+from opspace.report import Page
 
 L1, TOOL, D = 0.5, 0.4, 0.2   # link 1 length, link 2 to the tool, box centre on link 2 (m)
 

@@ -67,7 +67,7 @@ def test_a_sweep_over_a_derived_value(tmp_path):
     """The sweep's documents carry the whole robot's URDF text (xacro expanded)
     to its workers, where the files are not: a point that sets [base] mass,
     which the URDF otherwise gives, moves the robot's mass by the same amount."""
-    from opspace.sweep.docs import load_robot_doc, read_documents
+    from opspace.sweep._docs import load_robot_doc, read_documents
     documents = read_documents(WREN / "fetch.toml", where="test")
     assert documents.urdf_name == "wren.urdf"
     base = load_robot_doc(documents, documents.docs["robot"])

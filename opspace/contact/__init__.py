@@ -12,8 +12,8 @@ needs a risk assessment and measurement with calibrated instruments; defer to
 the applicable standards and licensed engineering practice.
 """
 
-from ..description.contact import (BodyRegion, ContactPointSpec, RegionTable, load_contact_points,
-                                   load_regions)
+from ..description import (BodyRegion, ContactPointSpec, RegionTable, load_contact_points,
+                           load_regions)
 from ._check import CAUTIONS, ContactCheck, check_contacts
 from ._motion import ContactTrack, SpeedMap, contact_track, heaviest_pose, speed_map
 from ._points import PointMass, effective_masses, point_position

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..description.contact import load_regions
+from ..description import load_regions
 from ..errors import ConfigError
 from ._motion import contact_track, heaviest_pose, speed_map
 from ._points import effective_masses

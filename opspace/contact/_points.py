@@ -27,7 +27,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..description.contact import OUTLINE_POINTS
+from ..description import OUTLINE_POINTS
 from ..dynamics import joint_space, task_space
 from ..errors import ConfigError
 from ._two_body import permissible_speed

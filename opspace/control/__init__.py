@@ -5,7 +5,7 @@ The command (Khatib 1987, IEEE J. Robotics and Automation 3(1)):
     Q = Jᵀ (Λ a* + μ + p) + Nᵀ Q₀ (+ f)
     a* = ẍ_d + K_d (ẋ_d − ẋ) + K_p e,     e = [p_d − p;  log(R_d Rᵀ)]
 
-with Λ, μ, p, J̄ and N = I − J̄ J from `opspace.dynamics.task_space`, f the
+with Λ, μ, p, J̄ and N = I − J̄ J from `opspace.dynamics._task_space`, f the
 friction feed-forward (optional) and e the position error and the SO(3)
 logarithm of the orientation error, both in world axes (R_d Rᵀ rotates the
 frame onto its target, so log(R_d Rᵀ) ≈ ∫(ω_d − ω) dt for small errors).  With
@@ -38,7 +38,7 @@ torque limit, arm: the URDF effort) and the saturation is reported per call
 
 from __future__ import annotations
 
-from .osc import OperationalSpaceController
-from .targets import BasePlan, CommandInfo, Gains, Target
+from ._osc import OperationalSpaceController
+from ._targets import BasePlan, CommandInfo, Gains, Target
 
 __all__ = ["BasePlan", "CommandInfo", "Gains", "OperationalSpaceController", "Target"]

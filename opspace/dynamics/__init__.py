@@ -5,10 +5,11 @@
 - `task_space`: J, J̇ν, Λ, μ, p, J̄, N, effective mass (operational space).
 """
 
-from .joint_space import (DriveInertia, JointSpaceTerms, drive_inertia, forward_dynamics,
+from ._joint_space import batch_threads, set_batch_threads
+from ._joint_space import (DriveInertia, JointSpaceTerms, drive_inertia, forward_dynamics,
                           friction, inverse_dynamics, inverse_dynamics_batch, joint_space,
                           kinetic_energy, potential_energy, static_contact_loads)
-from .task_space import (AXIS_NAMES, DEFAULT_DAMPING, InertiaEllipsoid, TaskSpaceTerms,
+from ._task_space import (AXIS_NAMES, DEFAULT_DAMPING, InertiaEllipsoid, TaskSpaceTerms,
                          cartesian_task_space, effective_mass, inertia_ellipsoid, task_space)
 
 __all__ = [
@@ -18,6 +19,8 @@ __all__ = [
     "InertiaEllipsoid",
     "JointSpaceTerms",
     "TaskSpaceTerms",
+    "batch_threads",
+    "set_batch_threads",
     "cartesian_task_space",
     "drive_inertia",
     "effective_mass",

@@ -295,7 +295,7 @@ def robot_scene(robot, qs, *, labels, title, times=None, support=None, markers=(
     if len(labels) != len(qs) or (times is not None and len(times) != len(qs)):
         raise ValueError(f"`labels` and `times` need one entry per configuration ({len(qs)})")
     if shapes is None:
-        from ..description.visuals import read_shapes
+        from ..description import read_shapes
 
         d = robot.description
         shapes = read_shapes(d.arm_urdf, package_paths=getattr(d, "package_paths", None))

@@ -8,32 +8,34 @@
 - `candidates`: motor-and-gearbox candidate checks and gear-ratio sweeps.
 """
 
-from .candidates import (CandidateCheck, Criterion, RatioSweep, check_candidate,
+from ._candidates import (CandidateCheck, Criterion, RatioSweep, check_candidate,
                          evaluate_catalogue, sweep_ratios)
-from .drives import (DriveFigures, WheelDuty, cycle_energy, cycle_rms, drive_figures, duty_factor,
+from ._drives import (DriveFigures, WheelDuty, cycle_energy, cycle_rms, drive_figures, duty_factor,
                      electrical_power, inertia_matching_ratio, motor_torque, thermal_rms)
-from .cycle import CycleEvaluation, evaluate_cycle
-from .run import SizingResult, size
-from .worst_case import StopFigures, WorstPose, shortest_stop, worst_poses
+from ._cycle import CycleEvaluation, evaluate_cycle
+from ._run import ROBOT_CRITERIA, SizingResult, drive_margin, size
+from ._worst_case import StopFigures, WorstPose, shortest_stop, worst_poses
 
 __all__ = [
     "CandidateCheck",
-    "CycleEvaluation",
-    "SizingResult",
-    "StopFigures",
-    "WorstPose",
     "Criterion",
+    "CycleEvaluation",
     "DriveFigures",
     "RatioSweep",
+    "ROBOT_CRITERIA",
+    "SizingResult",
+    "StopFigures",
     "WheelDuty",
+    "WorstPose",
     "check_candidate",
     "cycle_energy",
     "cycle_rms",
     "drive_figures",
-    "evaluate_cycle",
+    "drive_margin",
     "duty_factor",
     "electrical_power",
     "evaluate_catalogue",
+    "evaluate_cycle",
     "inertia_matching_ratio",
     "motor_torque",
     "shortest_stop",

@@ -48,7 +48,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .contacts import _edge_distances, support_polygon
+from ._contacts import _edge_distances, support_polygon
 
 __all__ = ["SupportLoads", "SupportModel", "support_loads"]
 

@@ -42,10 +42,10 @@ The sweep file (TOML; SI units, paths relative to the file)::
     min = 0.05
 """
 
-from .engine import PointRecord, SweepResult, evaluate_point, progress_bar, run_sweep
-from .pareto import pareto_front
-from .paths import Figure, parse_figure, parse_path
-from .spec import Constraint, Parameter, Point, Sweep, latin_hypercube, load_sweep
+from ._engine import PointRecord, SweepResult, evaluate_point, progress_bar, run_sweep
+from ._pareto import pareto_front
+from ._paths import Figure, parse_figure, parse_path
+from ._spec import Constraint, Parameter, Point, Sweep, latin_hypercube, load_sweep
 
 __all__ = [
     "Constraint",

@@ -36,13 +36,13 @@ form; R is signed, R > 0 turns left).
 
 from __future__ import annotations
 
-from .motions import ArmMotion, BaseMotion, BaseSegment, JointMove, arc, joint_move, line, spin
-from .pieces import BASE_PIECE_KINDS, base_piece
-from .profiles import (MinimumJerkProfile, Phase, PiecewiseProfile, ProfileSample,
+from ._motions import ArmMotion, BaseMotion, BaseSegment, JointMove, arc, joint_move, line, spin
+from ._pieces import BASE_PIECE_KINDS, base_piece
+from ._profiles import (MinimumJerkProfile, Phase, PiecewiseProfile, ProfileSample,
                        constant_velocity, dwell, minimum_jerk, s_curve, trapezoidal,
                        velocity_change)
-from .timeline import Piece, Timeline, TimelineSample
-from .tool_path import ToolPath, ToolSample
+from ._timeline import Piece, Timeline, TimelineSample
+from ._tool_path import ToolPath, ToolSample
 
 __all__ = [
     "BASE_PIECE_KINDS",

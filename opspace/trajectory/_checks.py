@@ -7,6 +7,10 @@ from dataclasses import fields
 
 import numpy as np
 
+from .._common import nonnegative as _nonnegative  # noqa: F401  (used by the package)
+from .._common import positive as _positive  # noqa: F401
+from .._common import real as _real  # noqa: F401
+
 # Absolute tolerance for "the same speed / position" at piece boundaries (m/s, rad/s,
 # m, rad): far above rounding of the closed forms, far below anything physical.
 _JOIN_TOL = 1e-9
@@ -18,30 +22,6 @@ _UNIT_JERK = "(m/s³ or rad/s³)"
 
 
 # --------------------------------------------------------------------------- checks
-def _real(name, x, unit=""):
-    try:
-        value = float(x)
-    except (TypeError, ValueError):
-        raise ValueError(f"`{name}` must be a real number {unit}, got {x!r}") from None
-    if not math.isfinite(value):
-        raise ValueError(f"`{name}` must be a finite number {unit}, got {value}")
-    return value
-
-
-def _positive(name, x, unit):
-    value = _real(name, x, unit)
-    if not value > 0.0:
-        raise ValueError(f"`{name}` must be a finite number > 0 {unit}, got {value}")
-    return value
-
-
-def _nonnegative(name, x, unit):
-    value = _real(name, x, unit)
-    if value < 0.0:
-        raise ValueError(f"`{name}` must be a finite number >= 0 {unit}, got {value}")
-    return value
-
-
 def _as_times(t):
     t = np.atleast_1d(np.asarray(t, dtype=float))
     if t.ndim != 1:

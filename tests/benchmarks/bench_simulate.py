@@ -37,7 +37,7 @@ never absolute times).  RTF is on wall time, as the issue asks; the CPU time of
 this process is printed beside it (time spent descheduled is not charged).
 The pieces of (b) are CPU time, interleaved within each repeat, each given as
 its median share of its parent piece.  The private pieces timed in item 4
-(`opspace._compiled.kernel_plant`, `opspace.simulate.loop._Recorder`, `_Plant`,
+(`opspace._compiled.kernel_plant`, `opspace.simulation._loop._Recorder`, `_Plant`,
 `_rk4`, the controller's `_kernel` and `_command_numpy`) are the ones
 `simulate` calls; if they are renamed, update this script.
 
@@ -60,11 +60,12 @@ import numpy as np
 import pinocchio as pin
 
 from opspace.description import inertia_matrix
-from opspace.description.scenario import load_scenario
+from opspace.description import load_scenario
 from opspace.model import GRAVITY, load_robot
 from opspace import _compiled
-from opspace.simulate import ScenarioRun
-from opspace.simulate.loop import _Plant, _rk4
+from opspace.simulation import ScenarioRun
+from opspace.dynamics._joint_space import compiled_plant
+from opspace.simulation._loop import _Plant, _rk4
 
 PICK = Path(__file__).resolve().parents[2] / "models" / "marmot" / "pick.toml"
 LWA = pin.LOCAL_WORLD_ALIGNED
@@ -342,7 +343,7 @@ def timed_run(run, integrator="rk4"):
     step and the recorder wrapped in timers (the wrappers add ~1 µs per step).
     Returns {piece: wall µs per step}, the instrumented total as "total" and
     the unwrapped rest of the loop as "loop"."""
-    sim = sys.modules[_Plant.__module__]   # opspace.simulate.loop
+    sim = sys.modules[_Plant.__module__]   # opspace.simulation._loop
     acc = dict.fromkeys(("control", "plant", "record", "result"), 0.0)
     clock = time.perf_counter
     saved = (_compiled.kernel_plant, sim._Recorder.add, sim._Recorder.result)
@@ -416,7 +417,7 @@ def cost_pieces(run, numpy_run, res, repeat, stride=3):
                               for q, nu, i in zip(qs, nus, idx)])
 
     # --- the plant: the compiled step, its raw calls, the NumPy reference step
-    kp = _compiled.kernel_plant(robot, np.zeros(robot.nv, bool), sc.friction)
+    kp = compiled_plant(robot, np.zeros(robot.nv, bool), sc.friction)
     pdata, out = model.createData(), np.empty(robot.nv)
     cand["kernel_rk4"] = (lambda q, nu, Q: kp.rk4(model, pdata, q, nu, Q, h, out),
                           [(q.copy(), nu.copy(), Q) for q, nu, Q in zip(qs, nus, Qs)])

@@ -19,8 +19,8 @@ from pathlib import Path
 
 
 import opspace
-from opspace.sizing.cycle import evaluate_cycle
-from opspace.sizing.worst_case import critical_instants, worst_poses
+from opspace.sizing import evaluate_cycle
+from opspace.sizing._worst_case import critical_instants, worst_poses
 
 REPO = Path(__file__).resolve().parents[2]
 CYCLE = REPO / "models" / "marmot" / "shift.toml"
