@@ -70,12 +70,10 @@ def frame_placements(robot, qs, frame_id):
     return out[:, :3].copy(), out[:, 3:].reshape(-1, 3, 3).copy()
 
 
-def inverse_dynamics_kernel(robot):
-    """The compiled Q = Sᵀ RNEA(q, S ν, S ν̇) of the robot (cached on it), or None."""
+def inverse_dynamics_kernel(S):
+    """The compiled Q = Sᵀ RNEA(q, S ν, S ν̇) for the reduction map S, or None
+    (`opspace.dynamics` keeps one per robot in its workspace)."""
     k = _module()
-    if k is None or robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows
+    if k is None:
         return None
-    cached = getattr(robot, "_kernel_id", None)
-    if cached is None:
-        cached = robot._kernel_id = k.InverseDynamics(np.asarray(robot.S, float))
-    return cached
+    return k.InverseDynamics(np.asarray(S, float))

@@ -13,6 +13,23 @@ from .errors import ConfigError, ModelError
 __all__ = ["main"]
 
 
+class _Parser(argparse.ArgumentParser):
+    """argparse with a one-line error (exit status 2), like a bad file key."""
+
+    def error(self, message):
+        self.exit(2, f"{self.prog}: error: {message} (see {self.prog} --help)\n")
+
+
+def _input_file(path, what):
+    """A file named on the command line: it exists and is a regular file."""
+    from .description import check_file
+
+    if path is None:
+        return None
+    check_file(path, where=f"opspace: {what} argument", what="file")
+    return Path(path)
+
+
 def demo_robot_path():
     """The bundled demo robot description (installed copy, else the repo's)."""
     here = Path(__file__).resolve().parent
@@ -28,7 +45,7 @@ def _cmd_check(args):
     from .report import check_summary
     from .stability import check_standing
 
-    robot = load_robot(args.robot or demo_robot_path())
+    robot = load_robot(_input_file(args.robot, "ROBOT") or demo_robot_path())
     check_standing(robot)
     print(check_summary(robot))
     return 0
@@ -67,22 +84,20 @@ class _Progress:
 
 
 def _cmd_size(args):
-    from .description import load_duty_cycle
+    from .description import check_output_dir, load_duty_cycle
     from .model import load_robot
     from .report import write_sizing_report
     from .sizing import size
 
-    path = Path(args.cycle) if args.cycle else demo_cycle_path()
+    path = _input_file(args.cycle, "CYCLE") or demo_cycle_path()
+    out = check_output_dir(args.output)
     duty = load_duty_cycle(path)
     robot = load_robot(args.robot or duty.robot_path)   # --robot: e.g. an identified one
     duty = load_duty_cycle(path, robot=robot)          # cross-checks before computing
     catalogue = args.catalogue
     if catalogue is not None:
         from .description import load_catalogue
-        catalogue = load_catalogue(catalogue)
-    out = Path(args.output)
-    if out.exists() and not out.is_dir():
-        raise ConfigError(f"-o {out}: exists and is not a directory")
+        catalogue = load_catalogue(_input_file(catalogue, "--catalogue"))
     progress = _Progress(not args.quiet and sys.stderr.isatty())
     try:
         result = size(duty, robot=robot, catalogue=catalogue, search=not args.no_search,
@@ -114,20 +129,19 @@ def _cmd_size(args):
 
 
 def _cmd_simulate(args):
-    from .description import load_scenario
+    from .description import check_output_dir, load_scenario, option_number
     from .report import simulation_text, write_simulation_outputs
     from .simulation import ScenarioRun, SimulationError
 
-    path = Path(args.scenario) if args.scenario else demo_robot_path().with_name("pick.toml")
+    path = _input_file(args.scenario, "SCENARIO") or demo_robot_path().with_name("pick.toml")
+    out = check_output_dir(args.output)
+    option_number("--payload-error", args.payload_error, lo=-0.9, hi=10.0)
     scenario = load_scenario(path)
     if args.robot:                                      # e.g. an identified robot
         from dataclasses import replace
-        scenario = replace(scenario, robot_path=Path(args.robot).resolve())
+        scenario = replace(scenario, robot_path=_input_file(args.robot, "--robot").resolve())
     run = ScenarioRun(scenario, payload_mass_error=args.payload_error,   # validates it all
                       compiled=False if args.reference_loop else None)
-    out = Path(args.output)
-    if out.exists() and not out.is_dir():
-        raise ConfigError(f"-o {out}: exists and is not a directory")
     progress = _Progress(not args.quiet and sys.stderr.isatty())
     try:
         try:
@@ -186,10 +200,9 @@ def _cmd_contact(args):
 
 
 def _output_dir(path):
-    out = Path(path)
-    if out.exists() and not out.is_dir():
-        raise ConfigError(f"-o {out}: exists and is not a directory")
-    return out
+    from .description import check_output_dir
+
+    return check_output_dir(path)
 # ---------------------------------------------------------- end opspace contact
 
 
@@ -231,6 +244,48 @@ def _cmd_identify(args):
     return 0
 
 
+def _cmd_excite(args):
+    import json
+    import os
+
+    import numpy as np
+
+    from .identify import design_excitation
+    from .model import load_robot
+
+    robot = load_robot(args.robot)
+    out = _output_dir(args.output)
+    ex = design_excitation(robot, harmonics=args.harmonics, period=args.period,
+                           budget=args.budget, seed=args.seed)
+    t = np.arange(0.0, args.cycles * ex.period, 1.0 / args.rate)
+    pos, vel, acc = ex.motion(t)
+    names = robot.coordinate_names
+    header = ["time", *names, *(f"velocity:{n}" for n in names),
+              *(f"acceleration:{n}" for n in names)]
+    rows = np.column_stack([t, pos, vel, acc])
+    out.mkdir(parents=True, exist_ok=True)
+    status = "designed" if ex.feasible else "infeasible"
+    doc = {"status": status, "period": {"value": ex.period, "unit": "s"},
+           "harmonics": args.harmonics, "coordinates": list(names),
+           "q0": ex.q0.tolist(), "a": ex.a.tolist(), "b": ex.b.tolist(),
+           "condition_number": ex.condition, "condition_number_random_start": ex.condition_start,
+           "limit_use": ex.use}
+    for name, write in (("excitation.csv", lambda p: np.savetxt(
+            p, rows, delimiter=",", header=",".join(header), comments="", fmt="%.9g")),
+                        ("excitation.json", lambda p: p.write_text(json.dumps(doc, indent=2)))):
+        tmp = out / (name + ".part")
+        write(tmp)
+        os.replace(tmp, out / name)
+    worst = max(ex.use, key=ex.use.get)
+    print(f"{status.upper()}: {args.harmonics} harmonics over {ex.period:g} s, regressor "
+          f"condition number {ex.condition:.3g} (best random start {ex.condition_start:.3g}); "
+          f"closest limit: {worst} at {ex.use[worst]:.0%}")
+    print(f"trajectory: {out / 'excitation.csv'} ({args.cycles} periods at {args.rate:g} Hz); "
+          f"coefficients: {out / 'excitation.json'}")
+    print("Run it on the robot under supervision, with its own limits and stops active.")
+    return 0 if ex.feasible else 1
+
+
 def _torque_constant(text):
     name, sep, value = text.partition("=")
     try:
@@ -248,7 +303,11 @@ def _torque_constant(text):
 def _cmd_sweep(args):
     from .sweep import load_sweep, progress_bar, run_sweep
 
-    path = Path(args.sweep) if args.sweep else demo_robot_path().with_name("sweep.toml")
+    from .sweep import check_options
+
+    path = _input_file(args.sweep, "SWEEP") or demo_robot_path().with_name("sweep.toml")
+    check_options(args.output, workers=args.workers, cluster=args.cluster,
+                  local_cluster=args.local_cluster, resume=args.resume)
     sweep = load_sweep(path)
     bar = progress_bar(enabled=not args.quiet and sys.stderr.isatty())
     try:
@@ -351,6 +410,30 @@ def _samples_arg(text):
     return n
 
 
+def _count_arg(lo, hi):
+    def parse(text):
+        try:
+            n = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
+        if not lo <= n <= hi:
+            raise argparse.ArgumentTypeError(f"must be within {lo}..{hi}, got {n}")
+        return n
+    return parse
+
+
+def _range_arg(lo, hi, unit):
+    def parse(text):
+        try:
+            v = float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"must be a number, got {text!r}") from None
+        if not lo <= v <= hi:
+            raise argparse.ArgumentTypeError(f"must be within {lo:g}..{hi:g} {unit}, got {text}")
+        return v
+    return parse
+
+
 def _cutoff_arg(text):
     v = float(text)
     if not 0.01 <= v <= 1000.0:       # nan fails both comparisons
@@ -359,7 +442,7 @@ def _cutoff_arg(text):
 
 
 def build_parser():
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="opspace",
         description="Dynamics of mobile manipulators: model checks, drive sizing, simulation.")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
@@ -458,6 +541,23 @@ def build_parser():
     p.add_argument("--torque-constant", action="append", metavar="COORDINATE=K",
                    help="motor torque constant (N·m/A) for a current:COORDINATE column")
     p.set_defaults(func=_cmd_identify)
+    p = sub.add_parser("excite", help="design an excitation trajectory for identification "
+                                      "(finite Fourier series, limits kept, well conditioned)")
+    p.add_argument("--robot", required=True, help="robot description TOML")
+    p.add_argument("-o", "--output", default="opspace-excite",
+                   help="output directory (default: ./opspace-excite)")
+    p.add_argument("--harmonics", type=_count_arg(1, 10), default=3,
+                   help="harmonics per coordinate (default 3)")
+    p.add_argument("--period", type=_range_arg(1.0, 120.0, "s"), default=10.0,
+                   help="period of the motion, s (default 10)")
+    p.add_argument("--cycles", type=_count_arg(1, 100), default=2,
+                   help="periods written to the CSV (default 2)")
+    p.add_argument("--rate", type=_range_arg(10.0, 10000.0, "Hz"), default=500.0,
+                   help="sample rate of the CSV, Hz (default 500)")
+    p.add_argument("--budget", type=_count_arg(0, 100000), default=150,
+                   help="objective evaluations of the search (default 150)")
+    p.add_argument("--seed", type=_count_arg(0, 2**31), default=0, help="random seed")
+    p.set_defaults(func=_cmd_excite)
     # ------------------------------------------------------------ opspace sweep
     p = sub.add_parser("sweep", help="size many design points (a sweep file) on local "
                                      "processes or a Dask cluster; CSV and HTML page")
@@ -484,8 +584,8 @@ def main(argv=None):
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
-    except SystemExit as exc:  # argparse already printed its one-line usage error
-        return int(exc.code or 0)
+    except SystemExit as exc:  # argparse printed its one-line error (or the help)
+        return exc.code if isinstance(exc.code, int) else 2
     if args.command is None:
         parser.print_help()
         return 2

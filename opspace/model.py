@@ -62,6 +62,24 @@ def _inertia(mass, com, values):
     return pin.Inertia(float(mass), np.asarray(com, dtype=float), inertia_matrix(values))
 
 
+def _link_frames_apart(arm):
+    """(arm, {temporary name: name}): a copy of the arm model whose link frames
+    that share their name with a joint (legal URDF) carry a temporary name,
+    which `pinocchio.appendModel` (it looks frames up by name alone) needs."""
+    names = [f.name for f in arm.frames]
+    clash = {n for n in names if names.count(n) > 1}
+    if not clash:
+        return arm, {}
+    arm = arm.copy()
+    renamed = {}
+    for i, f in enumerate(arm.frames):
+        if f.name in clash and f.type == pin.FrameType.BODY:
+            renamed[f"{f.name} (link {i})"] = f.name
+            f.name = f"{f.name} (link {i})"
+            arm.frames[i] = f
+    return arm, renamed
+
+
 @dataclass(frozen=True)
 class Contact:
     """A ground contact: name, position (x, y) in the base frame, m, and
@@ -147,7 +165,12 @@ class MobileManipulator:
             m.appendBodyToJoint(jw, _inertia(wheel.mass, np.zeros(3), I_wheel), pin.SE3.Identity())
             m.addFrame(pin.Frame(name, jw, 0, pin.SE3.Identity(), pin.FrameType.BODY))
         X_mount = pin.SE3(pin.rpy.rpyToMatrix(np.array(d.mount_rpy)), np.array(d.mount_xyz))
-        model = pin.appendModel(m, d.arm_model, base_frame, X_mount)
+        arm, renamed = _link_frames_apart(d.arm_model)
+        model = pin.appendModel(m, arm, base_frame, X_mount)
+        for i, f in enumerate(model.frames):      # the links' own names back
+            if f.name in renamed:
+                f.name = renamed[f.name]
+                model.frames[i] = f
         for name, (parent, xyz, R) in (d.whole.frames if d.whole is not None else {}).items():
             if not model.existFrame(name):    # a whole URDF's chassis and wheel links
                 fid = model.getFrameId(parent)
@@ -336,7 +359,11 @@ class MobileManipulator:
         if not self.model.existFrame(name):
             names = ", ".join(f.name for f in self.model.frames if f.type == pin.FrameType.BODY)
             raise ConfigError(f"unknown frame '{name}' (body frames: {names})")
-        return self.model.getFrameId(name)
+        # a link and a joint may share a name (legal URDF): the link's frame wins
+        ids = [i for i, f in enumerate(self.model.frames) if f.name == name]
+        order = (pin.FrameType.BODY, pin.FrameType.OP_FRAME, pin.FrameType.FIXED_JOINT,
+                 pin.FrameType.JOINT, pin.FrameType.SENSOR)
+        return min(ids, key=lambda i: order.index(self.model.frames[i].type))
 
     def frame_placement(self, q, frame):
         """World placement of a frame, pinocchio.SE3 (X_W_frame)."""

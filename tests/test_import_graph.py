@@ -96,6 +96,24 @@ def test_the_import_graph_has_no_circle():
     assert circles == [], "import circles: " + "; ".join(" -> ".join(c) for c in circles)
 
 
+def test_no_private_name_crosses_a_sub_package():
+    """A `_`-prefixed module or name is used only inside the sub-package that
+    owns it (the top-level `opspace._x` modules belong to the whole package)."""
+    modules, edges = _edges()
+    crossings = []
+    for importer, targets in edges.items():
+        own = _sub_package(importer, modules)
+        for target, names in targets:
+            owner = _sub_package(target, modules)
+            if owner == own or owner == "opspace":
+                continue
+            private = [p for p in target.split(".") if p.startswith("_") and p != "__init__"]
+            private += [n for n in names if n.startswith("_")]
+            if private:
+                crossings.append(f"{importer} imports {', '.join(private)} from {target}")
+    assert crossings == [], "\n".join(crossings)
+
+
 @pytest.mark.parametrize("package", ["control", "description", "dynamics", "plots", "report",
                                      "simulation", "sizing", "stability", "sweep", "trajectory"])
 def test_no_public_name_shadows_a_module(package):

@@ -19,7 +19,7 @@ from opspace import _compiled
 from opspace.control import BasePlan, OperationalSpaceController, Target
 from opspace.description import load_scenario
 from opspace.simulation import ScenarioRun, simulate
-from opspace.dynamics._joint_space import compiled_plant
+from opspace.dynamics import compiled_plant
 from opspace.simulation._loop import _Plant, _rk4
 from conftest import DEMO, random_state
 

@@ -108,13 +108,15 @@ def read_csv(path):
 
 BASIC = """
 [[parameter]]
-key = "robot.base.mass"
-values = [47.5, -3.0]
+key = "robot.base.top_speed"
+values = [1.5, 1.0]
 
 [[parameter]]
 key = "cycle.segment[label=out].speed"
 values = [0.9, 1.1]
 """
+# top_speed 1.0 with speed 1.1 is the one invalid combination: every value is
+# valid on its own (so the sweep starts), that point fails and the sweep goes on
 
 
 @pytest.fixture(scope="module")
@@ -127,14 +129,14 @@ def basic_run(files, tmp_path_factory):
 
 
 # ---------------------------------------------------------------- identity
-def _direct_summary(files, tmp_path, mass, speed):
+def _direct_summary(files, tmp_path, top, speed):
     """summary.json figures of `opspace.size` on hand-edited copies of the files."""
-    d = tmp_path / f"direct-{mass}-{speed}"
+    d = tmp_path / f"direct-{top}-{speed}"
     d.mkdir()
     for name in ("arm.urdf", "drives.toml"):
         shutil.copy(files / name, d / name)
     robot = (files / "robot.toml").read_text()
-    robot, n = re.subn(r"(?m)^mass = 42\.0 ", f"mass = {mass!r} ", robot)
+    robot, n = re.subn(r"(?m)^top_speed = 1\.5 ", f"top_speed = {top!r} ", robot)
     assert n == 1
     (d / "robot.toml").write_text(robot)
     cycle, n = re.subn(r"speed = 1\.2\n", f"speed = {speed!r}\n", SHORT_CYCLE)
@@ -150,10 +152,10 @@ def test_point_figures_equal_a_direct_size_run_bit_for_bit(basic_run, files, tmp
     _, out, code = basic_run
     assert code == 0
     rows = [r for r in read_csv(out / "sweep.csv") if r["status"] == "ok"]
-    assert len(rows) == 2
+    assert len(rows) == 3
     for row in rows:
-        mass, speed = float(row["robot.base.mass"]), float(row["cycle.segment[label=out].speed"])
-        s = _direct_summary(files, tmp_path, mass, speed)
+        top, speed = float(row["robot.base.top_speed"]), float(row["cycle.segment[label=out].speed"])
+        s = _direct_summary(files, tmp_path, top, speed)
         cand = s["candidates"]
         expected = {
             "stability.min_tip_over_margin": s["stability"]["min_tip_over_margin"]["value"],
@@ -177,14 +179,15 @@ def test_a_failing_point_is_recorded_and_the_sweep_goes_on(basic_run):
     _, out, _ = basic_run
     rows = read_csv(out / "sweep.csv")
     assert len(rows) == 4 and len({r["id"] for r in rows}) == 4
-    bad = [r for r in rows if float(r["robot.base.mass"]) == -3.0]
-    assert [r["status"] for r in bad] == ["failed", "failed"]
-    for r in bad:   # the loader's own message: file, table, key, value, expectation
-        assert "robot.toml" in r["message"] and "[base] mass" in r["message"]
-        assert "-3" in r["message"] and "> 0" in r["message"]
+    bad = [r for r in rows if r["status"] != "ok"]
+    assert [(r["status"], float(r["robot.base.top_speed"]),
+             float(r["cycle.segment[label=out].speed"])) for r in bad] == [("failed", 1.0, 1.1)]
+    for r in bad:   # the loader's own message: file, segment, key, value, expectation
+        assert "short.toml" in r["message"] and "speed = 1.1 m/s exceeds" in r["message"]
+        assert "top_speed 1 m/s" in r["message"]
         assert r["verdict"] == "" and r["stability.min_tip_over_margin"] == ""
     html = (out / "sweep.html").read_text()
-    assert html.count("data:image/png;base64,") == 3 and "did not size (2)" in html
+    assert html.count("data:image/png;base64,") == 3 and "did not size (1)" in html
     assert "verify" in html.lower() and "safety standards" in html
     assert "Best design in 3-D" in html
 

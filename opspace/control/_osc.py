@@ -9,9 +9,15 @@ import pinocchio as pin
 from scipy.linalg import lapack
 
 from .._common import as_vector as _vec
-from ..dynamics._joint_space import _solve_spd, rolling_loads
-from ..dynamics._task_space import (DEFAULT_DAMPING, _frame, _rows, _solve_task, _task_rhs,
-                                   _threshold, task_space)
+from ..dynamics import DEFAULT_DAMPING
+from ..dynamics import damping_threshold as _threshold
+from ..dynamics import coulomb_viscous, frame_terms, rolling_loads
+from ..dynamics import resolve_frame as _frame
+from ..dynamics import solve_spd as _solve_spd
+from ..dynamics import solve_task as _solve_task
+from ..dynamics import task_rhs as _task_rhs
+from ..dynamics import task_rows as _rows
+from ..dynamics import task_space, workspace
 from ._targets import _STILL, BasePlan, CommandInfo, Gains, Target, _frozen
 
 __all__ = ["OperationalSpaceController"]
@@ -165,8 +171,7 @@ class OperationalSpaceController:
         if compiled is False or not usable:
             return None
         from .._kernel import Controller
-        from ..dynamics._joint_space import _rolling_terms
-        terms = _rolling_terms(robot)
+        terms = workspace(robot)
         rows = np.arange(6)[self._rows].astype(float)
         flags = np.array([self._fid, self._whole_body, self._angular, self.posture is not None,
                           self.friction_feedforward, robot.rolling_resistance != 0.0], float)
@@ -290,12 +295,9 @@ class OperationalSpaceController:
         (robot, model, data, fid, rows, k, S, St, J, Jt, h_col, b, rhs1, rhs2, GG, w, s0,
          nv, zero_v, eps2, diag, z, z_e, z_v, z_a) = self._hot
         self._info = None                              # the buffers are about to change
-        v = S.dot(nu)
-        M = St.dot(pin.crba(model, data, q, _WORLD)).dot(S)
-        np.dot(pin.getFrameJacobian(model, data, fid, _LWA)[rows], S, out=J)  # data.J: crba
-        h = St.dot(pin.nonLinearEffects(model, data, q, v))
-        pin.forwardKinematics(model, data, q, v, zero_v)
-        Jdot_nu = pin.getFrameClassicalAcceleration(model, data, fid, _LWA).vector[rows]
+        M, J6, h_pin, Jdot_nu, _ = frame_terms(robot, data, q, S.dot(nu), fid, rows)
+        np.dot(J6, S, out=J)
+        h = St.dot(h_pin)
         H = pin.updateFramePlacement(model, data, fid).homogeneous   # one copy: [R p; 0 1]
 
         np.subtract(target.position, H[:3, 3], out=z_e)
@@ -356,11 +358,7 @@ class OperationalSpaceController:
             Q += h
         if self.friction_feedforward:
             # f = f_C sign(ν) (or f_C tanh(ν/v_s), smoothed) + f_v ν + rolling resistance
-            if self.friction_velocity:
-                Q += robot.coulomb * np.tanh(nu * (1.0 / self.friction_velocity))
-            else:
-                Q += robot.coulomb * np.sign(nu)
-            Q += robot.viscous * nu
+            Q += coulomb_viscous(robot, nu, self.friction_velocity)
             if robot.rolling_resistance:
                 f0, f1 = rolling_loads(robot, q).wheel_efforts(nu)
                 Q[0] += f0

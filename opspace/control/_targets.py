@@ -9,7 +9,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .._common import as_vector as _vec
-from ..dynamics._task_space import _frame
+from ..dynamics import resolve_frame as _frame
 
 __all__ = ["BasePlan", "CommandInfo", "Gains", "Target"]
 

@@ -65,7 +65,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Entry, Section, read_document
+from ._toml import MAX_GEAR_RATIO, Entry, Section, read_document
 
 __all__ = ["Catalogue", "Gearbox", "Motor", "load_catalogue"]
 
@@ -299,6 +299,9 @@ def _read_ratios(s):
     for i, v in enumerate(value, start=1):
         if not math.isfinite(v) or v <= 0.0:
             s.fail(key, f"entry {i} must be a finite number > 0, got {v!r}")
+        if v > MAX_GEAR_RATIO:
+            s.fail(key, f"entry {i} must be <= {MAX_GEAR_RATIO:g} (a plausible gear ratio), "
+                        f"got {v!r}")
     if len(set(value)) != len(value):
         dup = next(v for v in value if value.count(v) > 1)
         s.fail(key, f"lists {dup:g} more than once, got {value!r}")

@@ -44,7 +44,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Section, read_document
+from ._toml import Section, check_file, read_document, referenced_path
 
 __all__ = ["DutyCycle", "Segment", "load_duty_cycle", "SEGMENT_KINDS"]
 
@@ -95,6 +95,7 @@ def load_duty_cycle(path, *, robot=None, doc=None):
     ConfigError   naming the file, the segment, the field, the value and the
                   expectation
     """
+    from_file = doc is None
     path, doc = read_document(path, doc, ("cycle", "segment"), ("cycle",))
     s = Section(path, "cycle", doc["cycle"])
     name = s.string("name", "duty cycle")
@@ -103,14 +104,19 @@ def load_duty_cycle(path, *, robot=None, doc=None):
     cph = s.number("cycles_per_hour", unit="1/h", lo=0.0, lo_open=True)
     rate = s.number("sample_rate", 200.0, unit="Hz", lo=1.0, hi=10000.0)
     sf = s.number("service_factor", 1.0, lo=1.0, hi=10.0)
-    arm_start = s.raw("arm_start", required=False)
+    arm_start = s.pose("arm_start")
     s.finish()
+    robot_path = referenced_path(path, robot_rel)
+    catalogue_path = referenced_path(path, catalogue_rel) if catalogue_rel else None
     entries = doc.get("segment", [])
     if not isinstance(entries, list) or not entries:
         raise ConfigError(f"{path.name}: the cycle has no [[segment]]: at least one is needed")
     segments = tuple(_read_segment(path, i, e) for i, e in enumerate(entries))
-    duty = DutyCycle(path=path, name=name, robot_path=(path.parent / robot_rel).resolve(),
-                     catalogue_path=(path.parent / catalogue_rel).resolve() if catalogue_rel else None,
+    if from_file:       # files named by a file the user gave exist (a sweep passes documents)
+        check_file(robot_path, where=f"{path.name}: [cycle] robot", what="robot description")
+        if catalogue_path is not None:
+            check_file(catalogue_path, where=f"{path.name}: [cycle] catalogue", what="catalogue")
+    duty = DutyCycle(path=path, name=name, robot_path=robot_path, catalogue_path=catalogue_path,
                      cycles_per_hour=cph, sample_rate=rate, service_factor=sf,
                      arm_start=arm_start, segments=segments)
     if robot is not None:
@@ -184,10 +190,7 @@ def _stop(s):
 
 
 def _arm(s):
-    target = s.raw("to")
-    if not (isinstance(target, str) or (isinstance(target, list) and all(
-            isinstance(v, (int, float)) and not isinstance(v, bool) for v in target))):
-        s.fail("to", f"must be a pose name or a list of joint values, got {target!r}")
+    target = s.pose("to", required=True)
     profile = s.string("profile", "minimum_jerk")
     if profile not in PROFILES:
         s.fail("profile", f"must be one of {', '.join(PROFILES)}, got {profile!r}")
@@ -206,6 +209,10 @@ _READERS = {"straight": _straight, "arc": _arc, "turn": _turn, "stop": _stop,
 def resolve_pose(duty, robot, value, where):
     """Arm joint values from a pose name or a list, checked against the limits."""
     name = duty.path.name
+    if not (isinstance(value, str) or (isinstance(value, (list, tuple, np.ndarray)) and all(
+            isinstance(v, (int, float, np.floating)) and not isinstance(v, bool) for v in value))):
+        raise ConfigError(f"{name}: {where} must be a pose name or a list of joint values "
+                          f"(rad or m), got {value!r}")
     if isinstance(value, str):
         if value not in robot.description.poses:
             known = ", ".join(sorted(robot.description.poses)) or "none"

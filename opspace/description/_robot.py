@@ -41,8 +41,9 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Section, check_inertia, read_document
-from ._urdf import Mimic, check_inertials, parse_xml, pinocchio_model, read_mimic
+from ._toml import (MAX_GEAR_RATIO, ROBOT_SIZE, Section, check_inertia, read_document,
+                    read_text, referenced_path)
+from ._urdf import Mimic, check_inertials, check_urdf, pinocchio_model, read_mimic
 from ._sources import read_package_paths, resolve_uri, urdf_source
 from ._whole import load_whole
 from ._contact import read_contact_points
@@ -209,14 +210,16 @@ def load_description(path, *, doc=None, urdf_text=None):
         urdf_rel = s.string("arm_urdf")
         s.finish()
         packages = read_package_paths(path, doc.get("package_paths", {}))
-        arm_urdf = resolve_uri(urdf_rel, packages, path.parent, f"{name}: [robot] arm_urdf").resolve()
+        arm_urdf = referenced_path(path, resolve_uri(urdf_rel, packages, path.parent,
+                                                     f"{name}: [robot] arm_urdf"))
         for table in ("base", "wheel", "mount"):
             if table not in doc:
                 raise ConfigError(f"{name}: table [{table}] is missing")
         tables = {t: doc[t] for t in ("base", "wheel", "mount")}
     else:
         arm_urdf, urdf_text = whole.urdf, whole.arm_text
-        tables = {t: {**whole.tables[t], **doc.get(t, {})} for t in ("base", "wheel", "mount")}
+        given = {t: Section(path, t, doc.get(t, {})).table for t in ("base", "wheel", "mount")}
+        tables = {t: {**whole.tables[t], **given[t]} for t in given}
         for table, what in (("base", "chassis links"), ("wheel", "wheel links")):
             if tables[table]["mass"] <= 0.0:   # placeholders only: nothing to derive from
                 raise ConfigError(f"{name}: the {what} of {whole.urdf.name} have no mass: "
@@ -227,12 +230,12 @@ def load_description(path, *, doc=None, urdf_text=None):
     drive = _read_drive(Section(path, "drive", doc["drive"]))
 
     s = Section(path, "mount", tables["mount"])
-    mount_xyz = s.vector("xyz", 3, unit="m")
+    mount_xyz = s.vector("xyz", 3, unit="m", cap=ROBOT_SIZE)
     mount_rpy = s.vector("rpy", 3, (0.0, 0.0, 0.0), unit="rad")
     s.finish()
 
     s = Section(path, "ground", doc.get("ground", {}))
-    friction = s.number("friction", DEFAULT_GROUND_FRICTION, lo=0.0, lo_open=True)
+    friction = s.number("friction", DEFAULT_GROUND_FRICTION, lo=0.0, lo_open=True, hi=100.0)
     friction_range = read_friction_range(s, friction)
     s.finish()
 
@@ -247,6 +250,7 @@ def load_description(path, *, doc=None, urdf_text=None):
     support = read_support(path, doc, casters, caster_stiffness, mass * 9.80665)
     _check_tool_frame(arm_model, tool_frame, name, arm_urdf)
     arm_joints = _read_arm_joints(path, doc.get("arm_joint", {}), arm_model)
+    _check_moving_mass(arm_model, mimic, arm_joints, arm_urdf.name, name)
     poses = _read_poses(path, doc.get("poses", {}), arm_model, mimic)
     contact_points = read_contact_points(path, doc.get("contact_point", []))
     _check_contact_points(path, contact_points, arm_model, base,
@@ -279,10 +283,8 @@ def robot_urdf(path, doc):
     if key == "urdf":
         args = table.get("xacro_args", {})
         return urdf_source(path, uri, packages, args if isinstance(args, dict) else {}, where)
-    file = resolve_uri(uri, packages, path.parent, where).resolve()
-    if not file.is_file():
-        raise ConfigError(f"{where}: URDF file not found: {file}")
-    return file, file.read_text(encoding="utf-8")
+    file = referenced_path(path, resolve_uri(uri, packages, path.parent, where))
+    return file, read_text(file, where=where, what="URDF file")
 
 
 def _check_contact_points(path, points, arm, base, chassis=()):
@@ -307,13 +309,13 @@ _BASE_FRAMES = ("base", "wheel_right", "wheel_left")
 def _read_base(s):
     base = BaseSpec(
         mass=s.number("mass", unit="kg", lo=0.0, lo_open=True),
-        com=s.vector("com", 3, unit="m"),
+        com=s.vector("com", 3, unit="m", cap=ROBOT_SIZE),
         inertia=s.vector("inertia", 6, unit="kg·m²"),
-        half_track=s.number("half_track", unit="m", lo=0.0, lo_open=True),
-        wheel_radius=s.number("wheel_radius", unit="m", lo=0.0, lo_open=True),
+        half_track=s.number("half_track", unit="m", lo=0.0, lo_open=True, hi=ROBOT_SIZE / 2),
+        wheel_radius=s.number("wheel_radius", unit="m", lo=0.0, lo_open=True, hi=ROBOT_SIZE / 5),
         rolling_resistance=s.number("rolling_resistance", 0.0, lo=0.0, hi=1.0),
         top_speed=s.number("top_speed", math.inf, unit="m/s", lo=0.0, lo_open=True),
-        footprint=s.vector("footprint", 5, unit="m", required=False),
+        footprint=s.vector("footprint", 5, unit="m", required=False, cap=ROBOT_SIZE),
     )
     fp = base.footprint
     if fp is not None and not (fp[0] < fp[1] and fp[2] < fp[3] and fp[4] > 0):
@@ -342,7 +344,7 @@ def _read_wheel(s):
 def _read_drive(s):
     drive = DriveSpec(
         rotor_inertia=s.number("rotor_inertia", unit="kg·m²", lo=0.0),
-        gear_ratio=s.number("gear_ratio", lo=0.0, lo_open=True),
+        gear_ratio=s.number("gear_ratio", lo=0.0, lo_open=True, hi=MAX_GEAR_RATIO),
         efficiency=s.number("efficiency", lo=0.0, lo_open=True, hi=1.0),
         coulomb=s.number("coulomb", 0.0, unit="N·m", lo=0.0),
         viscous=s.number("viscous", 0.0, unit="N·m·s/rad", lo=0.0),
@@ -356,7 +358,7 @@ def read_payload(s):
     """A [payload]-shaped table (also used by scenario files)."""
     payload = Payload(
         mass=s.number("mass", unit="kg", lo=0.0, lo_open=True),
-        com=s.vector("com", 3, (0.0, 0.0, 0.0), unit="m"),
+        com=s.vector("com", 3, (0.0, 0.0, 0.0), unit="m", cap=ROBOT_SIZE),
         inertia=s.vector("inertia", 6, (0.0,) * 6, unit="kg·m²"),
     )
     check_inertia(payload.inertia, s.where("inertia"), allow_zero=True)
@@ -382,7 +384,7 @@ def _read_casters(path, entries, base, whole=None):
                 s.fail("link", f"'{link}' is not a link of {whole.urdf.name}")
             x, y = whole.contacts[link]
         else:
-            x, y = s.vector("position", 2, unit="m")
+            x, y = s.vector("position", 2, unit="m", cap=ROBOT_SIZE)
         stiffness.append(s.number("stiffness", unit="N/m", lo=0.0, lo_open=True,
                                   required=False))
         s.finish()
@@ -423,10 +425,8 @@ def load_arm(urdf_path, *, where, text=None):
     and tied to their leaders by the model's reduction map."""
     urdf_path = Path(urdf_path)
     if text is None:
-        if not urdf_path.is_file():
-            raise ConfigError(f"{where}: URDF file not found: {urdf_path}")
-        text = urdf_path.read_text(encoding="utf-8")
-    root = parse_xml(text, urdf_path.name)
+        text = read_text(urdf_path, where=where, what="URDF file")
+    root = check_urdf(text, urdf_path.name)   # one line per problem, before urdfdom sees it
     arm = pinocchio_model(text, urdf_path.name)
     if arm.njoints < 2:
         raise ConfigError(f"{urdf_path.name}: the arm has no moving joint")
@@ -440,6 +440,38 @@ def load_arm(urdf_path, *, where, text=None):
     mimic = read_mimic(root, urdf_path.name, arm_joint_names(arm))
     arm_position_limits(arm, mimic, file=urdf_path.name)   # a leader with no common range
     return arm, mimic
+
+
+def _check_moving_mass(arm, mimic, arm_joints, urdf_name, name):
+    """Every independent arm joint moves some inertia: (Sᵀ M S)_ii > 0, with
+    M the joint-space mass matrix of the arm alone (composite-rigid-body
+    algorithm, Featherstone, Rigid Body Dynamics Algorithms, 2008, sec. 6.2:
+    M_jj = S_jᵀ I^c_j S_j with I^c_j the inertia of the links beyond joint j),
+    S the mimic map (q_f = k q_l + o), plus the joint's armature.  A joint
+    whose links beyond carry no mass (or none off its axis) makes the mass
+    matrix singular: caught here, naming the joint."""
+    import pinocchio as pin
+
+    names = arm_joint_names(arm)
+    free = independent_joint_names(arm, mimic)
+    S = np.zeros((arm.nv, len(free)))
+    for jid, jname in enumerate(names, start=1):
+        m = mimic.get(jname)
+        lead, k = (jname, 1.0) if m is None else (m.leader, m.multiplier)
+        S[arm.joints[jid].idx_v, free.index(lead)] = k
+    M = pin.crba(arm, arm.createData(), pin.neutral(arm))
+    diag = np.einsum("ji,jk,ki->i", S, M, S)
+    for i, jname in enumerate(free):
+        jd = arm_joints.get(jname)
+        if jd is not None:
+            diag[i] += jd.reflected_inertia
+    floor = 1e-12 * max(1.0, float(np.max(diag)))
+    for i, jname in enumerate(free):
+        if diag[i] <= floor:
+            raise ConfigError(f"{urdf_name}: joint '{jname}' moves no mass (the links beyond it "
+                              f"have no mass or inertia about its axis): the mass matrix would "
+                              f"be singular; give its child link an <inertial>, or the joint a "
+                              f"rotor in {name} [arm_joint.{jname}] rotor_inertia")
 
 
 def _check_tool_frame(arm, tool_frame, name, urdf):
@@ -500,7 +532,7 @@ def _read_arm_joints(path, table, arm):
             coulomb=s.number("coulomb", unit="N·m or N", lo=0.0, required=False),
             viscous=s.number("viscous", unit="N·m·s/rad or N·s/m", lo=0.0, required=False),
             rotor_inertia=s.number("rotor_inertia", 0.0, unit="kg·m²", lo=0.0),
-            gear_ratio=s.number("gear_ratio", 1.0, lo=0.0, lo_open=True),
+            gear_ratio=s.number("gear_ratio", 1.0, lo=0.0, lo_open=True, hi=MAX_GEAR_RATIO),
         )
         s.finish()
     return drives

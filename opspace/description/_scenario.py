@@ -58,13 +58,16 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import ConfigError
-from ._toml import Section, read_document
+from ._toml import Section, check_file, read_document, referenced_path
 from ._duty import _READERS
 from ._robot import Payload, read_payload
 
 __all__ = ["Scenario", "Waypoint", "load_scenario"]
 
 BASE_KINDS = ("straight", "arc", "turn", "dwell")
+#: longest simulated time, s, and most integration steps of one run
+MAX_DURATION = 3600.0
+MAX_STEPS = 1e7
 
 
 @dataclass(frozen=True)
@@ -124,6 +127,8 @@ def _per_row(s, key, default, unit):
             and v >= 0 for v in value)):
         s.fail(key, f"must be a number >= 0{' ' + unit if unit else ''} or a list of them, "
                     f"got {value!r}")
+    for v in value:
+        s.plausible(key, v, unit)
     return [float(v) for v in value]
 
 
@@ -141,8 +146,11 @@ def load_scenario(path):
     s = Section(path, "simulation", doc["simulation"])
     name = s.string("name", "simulation")
     robot_rel = s.string("robot")
-    duration = s.number("duration", unit="s", lo=0.0, lo_open=True)
-    step = s.number("step", 0.001, unit="s", lo=0.0, lo_open=True, hi=0.1)
+    duration = s.number("duration", unit="s", lo=0.0, lo_open=True, hi=MAX_DURATION)
+    step = s.number("step", 0.001, unit="s", lo=1e-6, hi=0.1)
+    if duration / step > MAX_STEPS:
+        s.fail("step", f"makes {duration / step:.3g} steps over duration = {duration:g} s "
+                       f"(at most {MAX_STEPS:g}): use a larger step or a shorter run")
     rate = s.number("control_rate", 1.0 / step, unit="Hz", lo=0.0, lo_open=True)
     ratio = 1.0 / (rate * step)
     if abs(ratio - round(ratio)) > 1e-9 * ratio or round(ratio) < 1:
@@ -152,8 +160,10 @@ def load_scenario(path):
     if integrator not in ("rk4", "euler"):
         s.fail("integrator", f"must be rk4 or euler, got {integrator!r}")
     friction = _bool(s, "friction", True)
-    arm_start = s.raw("arm_start", required=False)
+    arm_start = s.pose("arm_start")
     s.finish()
+    robot_path = referenced_path(path, robot_rel)
+    check_file(robot_path, where=f"{path.name}: [simulation] robot", what="robot description")
 
     s = Section(path, "controller", doc.get("controller", {}))
     mode = s.string("mode", "arm_only")
@@ -173,7 +183,7 @@ def load_scenario(path):
         "mode": mode, "axes": axes,
         "stiffness": stiffness * rows if len(stiffness) == 1 else stiffness,
         "damping_ratio": zeta * rows if len(zeta) == 1 else zeta,
-        "posture": s.raw("posture", required=False),
+        "posture": s.pose("posture"),
         "posture_stiffness": s.number("posture_stiffness", 25.0, unit="1/s²", lo=0.0),
         "wheel_gain": s.number("wheel_gain", 10.0, unit="1/s", lo=0.0),
         "friction_feedforward": _bool(s, "friction_feedforward", True),
@@ -222,7 +232,7 @@ def load_scenario(path):
         if pick > duration:
             s.fail("pick", f"must be within the simulation (duration {duration:g} s), "
                            f"got {pick:g} s")
-    return Scenario(path=path, name=name, robot_path=(path.parent / robot_rel).resolve(),
+    return Scenario(path=path, name=name, robot_path=robot_path,
                     duration=duration, step=step, control_period=1.0 / rate,
                     integrator=integrator, friction=friction, arm_start=arm_start,
                     controller=controller, base=base, waypoints=waypoints, payload=payload,

@@ -11,7 +11,7 @@ import re
 from pathlib import Path
 
 from ..errors import ConfigError
-from ._toml import Section
+from ._toml import Section, check_file, read_text
 
 __all__ = ["expand_xacro", "mesh_files", "read_package_paths", "resolve_uri", "urdf_source"]
 
@@ -54,12 +54,11 @@ def resolve_uri(uri, packages, folder, where):
 def urdf_source(path, uri, packages, args, where):
     """(file, text) of the whole-robot URDF named `uri` in `path`: read, or
     expanded from xacro when its name ends in ``.xacro``."""
-    file = resolve_uri(uri, packages, Path(path).parent, where).resolve()
-    if not file.is_file():
-        raise ConfigError(f"{where}: URDF file not found: {uri} ({file})")
+    file = check_file(resolve_uri(uri, packages, Path(path).parent, where), where=where,
+                      what="URDF file")
     if file.suffix == ".xacro":
         return file, expand_xacro(file, packages, args)
-    return file, file.read_text(encoding="utf-8")
+    return file, read_text(file, where=where, what="URDF file")
 
 
 @contextlib.contextmanager

@@ -340,7 +340,7 @@ def load_whole(path, doc, s, urdf_text=None):
     """Read the [robot] keys of the whole-robot form from Section `s` and derive
     the base, wheels and mount from the URDF (see the module docstring)."""
     from ._sources import mesh_files, read_package_paths, urdf_source
-    from ._urdf import check_inertials, parse_xml, pinocchio_model
+    from ._urdf import check_inertials, check_urdf, pinocchio_model
 
     toml = path.name
     packages = read_package_paths(path, doc.get("package_paths", {}))
@@ -360,8 +360,8 @@ def load_whole(path, doc, s, urdf_text=None):
     else:
         from ._sources import resolve_uri
         file = resolve_uri(uri, packages, path.parent, where)
+    root = check_urdf(urdf_text, file.name, reserved=())   # before urdfdom sees it
     pinocchio_model(urdf_text, file.name)                  # the whole URDF parses
-    root = parse_xml(urdf_text, file.name)
     check_inertials(root, file.name)
     tree = WholeRobot(root, file.name, toml)
     right, left = tree.wheel_joints(names, f"{toml}: [robot] wheel_joints")

@@ -64,7 +64,8 @@ from scipy.linalg import lapack
 
 from ..errors import ModelError
 from .._common import as_vector as _vec
-from ._joint_space import _solve_spd
+from ._terms import frame_terms, mass_and_jacobian
+from ._terms import solve_spd as _solve_spd
 
 __all__ = [
     "AXIS_NAMES",
@@ -333,14 +334,9 @@ def _solve_task(Linv, rhs, eps):
 # ------------------------------------------------------------ kinematics pass
 def _kinematics(robot, data, q, v, fid, rows):
     """M (nv, nv), c, g (nv,), J (k, nv) and J̇ν (k,) from one pass of calls."""
-    model, S, St = robot.model, robot.S, robot.St
-    g = St.dot(pin.computeGeneralizedGravity(model, data, q))
-    M = St.dot(pin.crba(model, data, q, pin.Convention.WORLD)).dot(S)
-    J = pin.getFrameJacobian(model, data, fid, _LWA)[rows].dot(S)  # data.J from crba WORLD
-    c = St.dot(pin.nonLinearEffects(model, data, q, v)) - g
-    pin.forwardKinematics(model, data, q, v, np.zeros(model.nv))
-    Jdot_nu = pin.getFrameClassicalAcceleration(model, data, fid, _LWA).vector[rows]
-    return M, c, g, J, Jdot_nu
+    M, J6, h_pin, Jdot_nu, g_pin = frame_terms(robot, data, q, v, fid, rows, gravity=True)
+    g = robot.St.dot(g_pin)
+    return M, robot.St.dot(h_pin) - g, g, J6.dot(robot.S), Jdot_nu
 
 
 def _terms(robot, q, nu, fid, rows, k, locked, eps):
@@ -351,14 +347,9 @@ def _terms(robot, q, nu, fid, rows, k, locked, eps):
     second one (`_solve_task`).  Locked: [J_aᵀ | c_a | g_a | M_aw] with M_aa,
     and the extra columns J M_aa⁻¹ M_aw − J_base give Γ.
     """
-    model, data, S, St = robot.model, robot.data, robot.S, robot.St
-    v = S.dot(nu)
-    g_pin = pin.computeGeneralizedGravity(model, data, q)
-    M = St.dot(pin.crba(model, data, q, _WORLD)).dot(S)
-    J6 = pin.getFrameJacobian(model, data, fid, _LWA)[rows]     # data.J from crba WORLD
-    h_pin = pin.nonLinearEffects(model, data, q, v)
-    pin.forwardKinematics(model, data, q, v, np.zeros(model.nv))
-    Jdot_nu = pin.getFrameClassicalAcceleration(model, data, fid, _LWA).vector[rows]
+    S, St = robot.S, robot.St
+    M, J6, h_pin, Jdot_nu, g_pin = frame_terms(robot, robot.data, q, S.dot(nu), fid, rows,
+                                               gravity=True)
     if locked:
         J_full = J6.dot(S)
         J_base, J = J_full[:, :2], np.ascontiguousarray(J_full[:, 2:])
@@ -478,9 +469,8 @@ def cartesian_task_space(robot, q, nu, frame=None, axes="full", *, base="whole_b
 
 def _mobility(robot, q, fid, rows, locked):
     """Λ⁻¹ = J M⁻¹ Jᵀ (velocity-independent) and the frame origin."""
-    model, data, S, St = robot.model, robot.data, robot.S, robot.St
-    M = St.dot(pin.crba(model, data, q, pin.Convention.WORLD)).dot(S)
-    J = pin.getFrameJacobian(model, data, fid, _LWA)[rows].dot(S)
+    model, data = robot.model, robot.data
+    M, J = mass_and_jacobian(robot, data, q, fid, rows)
     if locked:
         M, J = M[2:, 2:], J[:, 2:]
     Linv = J.dot(_solve_spd(M, np.ascontiguousarray(J.T)))

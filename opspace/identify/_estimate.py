@@ -20,8 +20,12 @@ the one closest to the description's that reproduces the significant part of
 β̂ (a combination that differs from the description's by less than two
 standard deviations keeps the description's value):
 
-    θ̂ = θ₀ + Bᵀ (B Bᵀ)⁻¹ (β* − B θ₀),    B = [I K] Pᵀ,
+    θ̂ = θ₀ + D Bᵀ (B D Bᵀ)⁻¹ (β* − B θ₀),    B = [I K] Pᵀ,
     β*_i = β̂_i if |β̂_i − (B θ₀)_i| > 2 σ_i, else (B θ₀)_i
+
+with D = diag(s²) weighting how far each parameter may plausibly move (the
+minimum of Σ (θ_i − θ₀_i)² / s_i²): a rotor's inertia from its data sheet
+moves little, a link's mass from CAD more, friction most.
 """
 
 from __future__ import annotations
@@ -111,11 +115,13 @@ class Estimate:
             return np.where(self.beta != 0, self.std / np.abs(self.beta), np.inf)
 
 
-def estimate(W, tau, coord, base, prior):
+def estimate(W, tau, coord, base, prior, spread=None):
     """Weighted least squares of the base parameters (module docstring).
 
     W (r, p); tau (r,); coord (r,) the coordinate index of each row;
-    base: BaseParameters; prior θ₀ (p,).
+    base: BaseParameters; prior θ₀ (p,); spread (p,) or None: how far each
+    parameter may plausibly be from θ₀ (the weights D = diag(spread²) of the
+    minimum change; None: all alike).
     """
     Wb = W[:, base.index]                    # W θ = W_b β (structurally, W_d = W_b K)
     b = Wb.shape[1]
@@ -140,9 +146,11 @@ def estimate(W, tau, coord, base, prior):
     cov = s2 * np.linalg.pinv(Wt.T.dot(Wt))
     std = np.sqrt(np.maximum(np.diag(cov), 0.0))
     Bp = base.B.dot(prior)
-    BBt = base.B.dot(base.B.T)
+    D = np.ones(len(prior)) if spread is None else np.asarray(spread, float) ** 2
+    BD = base.B * D[None, :]
     significant = np.abs(beta - Bp) > 2.0 * std
-    theta = prior + base.B.T.dot(np.linalg.solve(BBt, np.where(significant, beta - Bp, 0.0)))
+    theta = prior + BD.T.dot(np.linalg.solve(BD.dot(base.B.T),
+                                             np.where(significant, beta - Bp, 0.0)))
     return Estimate(base, beta, Bp, std, sigma, theta, float(np.linalg.cond(Wt)), r)
 
 

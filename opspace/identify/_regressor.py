@@ -45,6 +45,10 @@ class ParameterSet:
     coulomb, viscous: slices (one per reduced coordinate)
     rolling: column of C_rr or None; payload: slice of the 10 payload columns or None
     tool_joint: the full model's joint carrying the tool (and payload)
+    spread (p,): how far each parameter may plausibly be from its prior (same
+    unit), for the minimum change of `_estimate` (common practice, no source:
+    masses ±30 % + 0.1 kg, first moments ±0.05 kg·m + 30 %, inertias ±30 % +
+    0.01 kg·m², armature ±5 % (data sheet), friction ±100 % + 0.1)
     """
 
     names: tuple
@@ -58,6 +62,7 @@ class ParameterSet:
     rolling: int | None
     payload: slice | None
     tool_joint: int
+    spread: np.ndarray = None
 
     @property
     def size(self):
@@ -109,9 +114,28 @@ def parameter_set(robot, *, payload=False):
         p = robot.description.payload
         prior += (_payload_inertia(robot, p).toDynamicParameters().tolist() if p is not None
                   else [0.0] * 10)
-    return ParameterSet(tuple(names), tuple(units), np.array(prior), tuple(bodies), inertial,
+    prior = np.array(prior)
+    return ParameterSet(tuple(names), tuple(units), prior, tuple(bodies), inertial,
                         tuple(armature), slice(c0, c0 + robot.nv), slice(v0, v0 + robot.nv),
-                        rolling, pay, tool_joint)
+                        rolling, pay, tool_joint, _spread(names, prior))
+
+
+def _spread(names, prior):
+    """Plausible distance of each parameter from its prior (see ParameterSet)."""
+    out = np.empty(len(names))
+    for i, (name, v) in enumerate(zip(names, prior)):
+        kind = name.rsplit(".", 1)[-1]
+        if kind == "m":
+            out[i] = 0.3 * abs(v) + 0.1
+        elif kind in ("mx", "my", "mz"):
+            out[i] = 0.3 * abs(v) + 0.05
+        elif kind.startswith("I"):
+            out[i] = 0.3 * abs(v) + 0.01
+        elif kind == "armature":
+            out[i] = 0.05 * abs(v) + 1e-6
+        else:                                   # coulomb, viscous, rolling_resistance
+            out[i] = abs(v) + 0.1
+    return out
 
 
 def robot_inertia(robot, joint):  # noqa: D401

@@ -24,7 +24,7 @@ from ..errors import ConfigError
 from ._estimate import base_parameters, estimate
 from ._regressor import parameter_set, regressor
 
-__all__ = ["DEFAULT_CUTOFF", "Identification", "identify", "prepare"]
+__all__ = ["DEFAULT_CUTOFF", "Identification", "identify", "predict", "prepare"]
 
 #: default low-pass cut-off of the zero-phase filter, Hz (common practice, no
 #: source: a few times the bandwidth of the excitation)
@@ -158,7 +158,7 @@ def identify(robot, logs, *, cutoff=DEFAULT_CUTOFF):
         raise ConfigError(f"{len(tm)} equations for {len(base.index)} base parameters: log "
                           f"more samples (or motion of more coordinates)")
     _check_signs(robot, logs, data, blocks, params.prior, measured)
-    fit = estimate(Wm, tm, coord, base, params.prior)
+    fit = estimate(Wm, tm, coord, base, params.prior, params.spread)
     if params.payload is not None and fit.theta[params.payload.start] <= 0.0:
         raise ConfigError(f"the identified payload mass is {fit.theta[params.payload.start]:.3g} "
                           f"kg: are the efforts of the wrong sign, or the payload column wrong?")
@@ -166,6 +166,14 @@ def identify(robot, logs, *, cutoff=DEFAULT_CUTOFF):
     prior_rows = [Wb.dot(params.prior).reshape(-1, nv) for Wb in blocks]
     return Identification(robot, params, fit, measured, data, tuple(beta_rows),
                           tuple(prior_rows), tuple(_consistency(params, fit.theta)))
+
+
+def predict(ident, log, *, cutoff=DEFAULT_CUTOFF):
+    """Efforts of a (fresh) log predicted by the identified base parameters:
+    (Prepared data, predicted efforts (n, nv))."""
+    d = prepare(ident.robot, log, cutoff=cutoff)
+    W = regressor(ident.robot, ident.params, d.qs, d.nu, d.nu_dot, d.held, signs=d.signs)
+    return d, W[:, ident.fit.base.index].dot(ident.fit.beta).reshape(-1, ident.robot.nv)
 
 
 def _check_signs(robot, logs, data, blocks, prior, measured):

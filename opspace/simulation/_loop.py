@@ -11,7 +11,7 @@ import numpy as np
 import pinocchio as pin
 from scipy.linalg import lapack
 
-from ..dynamics._joint_space import compiled_plant, rolling_loads
+from ..dynamics import bias_forces, compiled_plant, coulomb_viscous, mass_matrix, rolling_loads
 from ..errors import ModelError
 from ._result import SimulationError, SimulationResult
 
@@ -27,7 +27,6 @@ class _Plant:
         self.free = np.flatnonzero(~locked)
         self.all_free = bool(np.all(~locked))
         self.friction = friction
-        self.coulomb, self.viscous = robot.coulomb, robot.viscous
         self.rolling = friction and robot.rolling_resistance > 0.0
         self.nv = robot.nv
         self._loads = None
@@ -38,19 +37,18 @@ class _Plant:
             self._rolling = rolling_loads(self.robot, q).wheel_efforts
 
     def mass(self, q):
-        return self.St.dot(pin.crba(self.model, self.data, q)).dot(self.S)
+        return mass_matrix(self.robot, q, self.data)
 
     def accel(self, q, nu, Q):
         """ν̇ (nv,) at (q, ν) under efforts Q; ModelError if M is not PD."""
-        M = self.St.dot(pin.crba(self.model, self.data, q)).dot(self.S)
-        h = self.St.dot(pin.nonLinearEffects(self.model, self.data, q, self.S.dot(nu)))
-        return self.accel_from(M, h, nu, Q)
+        return self.accel_from(mass_matrix(self.robot, q, self.data),
+                               bias_forces(self.robot, q, nu, self.data), nu, Q)
 
     def accel_from(self, M, h, nu, Q):
         """ν̇ from the reduced M and h = c + g already computed at (q, ν)."""
         rhs = Q - h
         if self.friction:
-            rhs -= self.coulomb * np.sign(nu) + self.viscous * nu
+            rhs -= coulomb_viscous(self.robot, nu)
             if self.rolling:
                 f0, f1 = self._rolling(nu)
                 rhs[0] -= f0

@@ -44,9 +44,9 @@ import pinocchio as pin
 from scipy.optimize import minimize
 
 from .._common import GRAVITY
-from ..dynamics import inverse_dynamics_batch
-from ..dynamics._joint_space import _friction
+from ..dynamics import inverse_dynamics, inverse_dynamics_batch
 from ..stability import ground_wrench, stability_track, tyre_forces
+from ..stability import zmp as zmp_of
 
 __all__ = ["Instant", "StopFigures", "WorstPose", "critical_instants", "shortest_stop",
            "worst_poses"]
@@ -190,8 +190,8 @@ def _margin_grid(robot, poses, instants, polygon):
         f = m * (acc - g_vec)
         n_G = I_G[:, :, 2] * al + np.cross(np.array([0.0, 0.0, w]), I_G[:, :, 2] * w)
         n_o = n_G + np.cross(com, f)
-        zmp = np.column_stack([-n_o[:, 1], n_o[:, 0]]) / f[:, 2:3]
-        out[:, k] = polygon.margin(zmp)[0]
+        margin = polygon.margin(zmp_of(f, n_o, airborne="nan"))[0]
+        out[:, k] = np.where(np.isfinite(margin), margin, -np.inf)     # airborne: the worst
     return out
 
 
@@ -201,8 +201,7 @@ def _exact_peak_torque(robot, qa, instants):
         robot.set_ground_slope(math.atan(grade))
         qs, nu, nu_dot = _states(robot, qa[None], [instants[k] for k in ks])
         for j, k in enumerate(ks):
-            tau = pin.rnea(robot.model, robot.data, qs[j], robot.S @ nu[j], robot.S @ nu_dot[j])
-            Q = robot.St @ tau + _friction(robot, qs[j], nu[j])
+            Q = inverse_dynamics(robot, qs[j], nu[j], nu_dot[j])
             val = float(np.abs(Q[:2]).max())
             if val > worst:
                 worst, at = val, k
@@ -210,8 +209,6 @@ def _exact_peak_torque(robot, qa, instants):
 
 
 def _exact_margin(robot, qa, instants, polygon):
-    from ..stability import zmp as zmp_of
-
     worst, at = np.inf, 0
     for grade, ks in _by_grade(instants).items():
         robot.set_ground_slope(math.atan(grade))

@@ -255,6 +255,20 @@ def support_polygon(contacts_xy) -> SupportPolygon:
         ``is_segment`` True, on which `margin` raises a ValueError saying why.
     """
     P = _contacts(contacts_xy)
+    key = P.tobytes() + bytes(P.shape)
+    polygon = _POLYGONS.get(key)        # a robot's contacts are asked for again and again
+    if polygon is None:
+        polygon = _support_polygon(P)
+        if len(_POLYGONS) >= 64:
+            _POLYGONS.clear()
+        _POLYGONS[key] = polygon         # frozen, read-only vertices: safe to share
+    return polygon
+
+
+_POLYGONS = {}
+
+
+def _support_polygon(P):
     c0, _, axis = _layout(P)
     if axis is not None:
         t = (P - c0) @ axis

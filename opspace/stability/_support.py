@@ -44,6 +44,7 @@ N_i = α + β' x_i + γ' y_i of `normal_loads` (the rigid-cap pile-group formula
 from __future__ import annotations
 
 import math
+import weakref
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -349,6 +350,43 @@ def _deflection_plane(A, bp, Fb, sl, F, e):
     return np.linalg.solve(A.T, (d + e).T).T
 
 
+def _pieces_batch(A, bp, Fb, sl, B, e, u, F, U, rows, iterations=12):
+    """Many instants at once: from u, put each element on the piece of its law
+    that its deflection reaches and solve (2) on those pieces (the full Newton
+    step of `_newton`, exact on a piecewise-linear law), until the pieces of
+    the solution are the pieces it was solved on.  Fills F and U at those rows
+    and returns which rows were solved; the others are left to `_newton`."""
+    done = np.zeros(len(rows), dtype=bool)
+    m = A.shape[1]
+    cols = np.arange(m)
+    scale = np.abs(B[:, 0])
+    for _ in range(iterations):
+        live = np.flatnonzero(~done)
+        if live.size == 0:
+            break
+        d = u[live] @ A - e[live]
+        _, s, seg = _force(bp, Fb, sl, d)                       # s = 0 where lifted
+        b_seg, f_seg = bp[cols, seg], Fb[cols, seg]
+        H = np.einsum("im,nm,jm->nij", A, s, A)
+        good = np.linalg.det(H) > 1e-12 * np.max(sl) ** 3
+        if not np.any(good):
+            break
+        live, s, seg = live[good], s[good], seg[good]
+        b_seg, f_seg, H = b_seg[good], f_seg[good], H[good]
+        F0 = np.where(s > 0.0, f_seg - s * (e[live] + b_seg), 0.0)
+        un = np.linalg.solve(H, (B[live] - F0 @ A.T)[..., None])[..., 0]
+        dn = un @ A - e[live]
+        Fn, _, seg_n = _force(bp, Fb, sl, dn)
+        same = np.all((seg_n == seg) & ((dn > 0.0) == (s > 0.0)), axis=1)
+        resid = np.linalg.norm(Fn @ A.T - B[live], axis=1) <= _TOL * scale[live]
+        fin = same & resid
+        F[rows[live[fin]]] = Fn[fin]
+        U[rows[live[fin]]] = un[fin]
+        done[live[fin]] = True
+        u[live] = un
+    return done
+
+
 def _solve_all(A, bp, Fb, sl, B, e, supported, F, U):
     """Fill F (n, m) and U (n, 3) where supported: one linear solve for the
     instants whose elements all stay on the piece of the law the first
@@ -373,7 +411,11 @@ def _solve_all(A, bp, Fb, sl, B, e, supported, F, U):
     ok = np.all((d >= b_seg - 1e-15) & (d <= hi + 1e-15) & (d > 0.0), axis=1)
     F[idx[ok]] = f_seg + s_seg * (d[ok] - b_seg)
     U[idx[ok]] = u[ok]
-    for j in idx[~ok]:
+    rest = idx[~ok]
+    if rest.size:
+        done = _pieces_batch(A, bp, Fb, sl, B[rest], e[rest], u[~ok], F, U, rest)
+        rest = rest[~done]
+    for j in rest:
         uj, done = _newton(A, bp, Fb, sl, B[j], e[j], u0)
         if not done:
             raise ValueError(f"normal loads: Newton's method did not converge at instant {j}")
@@ -381,9 +423,13 @@ def _solve_all(A, bp, Fb, sl, B, e, supported, F, U):
         F[j], U[j] = Fj[0], uj
 
 
+_SUPPORT_MODELS = weakref.WeakKeyDictionary()
+
+
 def support_model(robot) -> SupportModel:
-    """The robot's `SupportModel` (from its description), built once per robot."""
-    cached = getattr(robot, "_support_model", None)
+    """The robot's `SupportModel` (from its description), built once per robot
+    (kept beside it, dropped with it)."""
+    cached = _SUPPORT_MODELS.get(robot)
     if cached is not None:
         return cached
     spec = robot.description.support
@@ -395,7 +441,7 @@ def support_model(robot) -> SupportModel:
         spring_rate=spec.spring_rate, travel=spec.travel,
         rockers=tuple((a, b, np.array(p)) for a, b, p in spec.rockers),
         unevenness=spec.unevenness)
-    robot._support_model = model
+    _SUPPORT_MODELS[robot] = model
     return model
 
 

@@ -35,6 +35,7 @@ from dataclasses import dataclass
 import numpy as np
 import pinocchio as pin
 
+from ..dynamics import coulomb_viscous, wheel_rolling_torques
 from ._contacts import support_polygon, zmp
 from ._margins import traction_use
 
@@ -46,16 +47,10 @@ def _rolling_parts(robot, qs, nus):
     """(N_static (n, k) N, caster forces (n, n_c, 2) N): the static contact loads
     the dynamics' rolling resistance uses, and each caster's rolling-resistance
     force F_c = −C_rr N_c v̂_c in base axes (v_c = (J_x ν, J_y ν) its ground velocity)."""
-    from ..dynamics._joint_space import _rolling_terms, _static_loads
+    from ..dynamics import caster_forces, static_loads_batch
 
-    terms = _rolling_terms(robot)
-    model, data = robot.model, robot.data
-    coms = np.array([pin.centerOfMass(model, data, q, False) for q in qs])
-    N = _static_loads(robot, terms, qs, coms)
-    vx, vy = nus.dot(terms.Jx.T), nus.dot(terms.Jy.T)               # (n, n_c)
-    speed = np.hypot(vx, vy)
-    k = np.divide(terms.c_rr * N[:, 2:], speed, out=np.zeros_like(speed), where=speed > 0)
-    return N, np.stack([-k * vx, -k * vy], axis=-1)
+    N = static_loads_batch(robot, qs)
+    return N, caster_forces(robot, nus, N)
 
 
 def tyre_forces(robot, qs, nus, nu_dots, Q):
@@ -74,10 +69,10 @@ def tyre_forces(robot, qs, nus, nu_dots, Q):
     d = robot.description
     J = d.wheel.spin_inertia + d.drive.reflected_inertia
     w, w_dot = nus[:, :2], nu_dots[:, :2]
-    own = robot.coulomb[:2] * np.sign(w) + robot.viscous[:2] * w
+    own = coulomb_viscous(robot, nus)[:, :2]
     if robot.rolling_resistance:
         N, _ = _rolling_parts(robot, qs, nus)
-        own = own + robot.rolling_resistance * robot.wheel_radius * N[:, :2] * np.sign(w)
+        own = own + wheel_rolling_torques(robot, N, nus)
     return (np.asarray(Q)[:, :2] - own - J * w_dot) / robot.wheel_radius
 
 

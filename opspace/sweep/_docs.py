@@ -69,20 +69,21 @@ def read_documents(duty_path, *, where):
     The files are parsed only; the loaders validate them (`load`).
     """
     duty_path = Path(duty_path)
-    if not duty_path.is_file():
-        raise ConfigError(f"{where}: duty-cycle file not found: {duty_path}")
-    cycle = read_toml(duty_path)
+    cycle = read_toml(duty_path, where=where, what="duty cycle")
     table = cycle.get("cycle")
     if not isinstance(table, dict) or not isinstance(table.get("robot"), str):
         raise ConfigError(f"{duty_path.name}: [cycle] robot is missing (the duty cycle must "
                           f"name its robot description)")
-    robot_path = (duty_path.parent / table["robot"]).resolve()
-    robot = read_toml(robot_path)
+    robot_path = referenced_path(duty_path, table["robot"])
+    robot = read_toml(robot_path, where=f"{duty_path.name}: [cycle] robot",
+                      what="robot description")
     urdf_path, urdf_text = robot_urdf(robot_path, robot)   # arm or whole robot (xacro expanded)
     catalogue, cat_name = None, None
     if isinstance(table.get("catalogue"), str):
-        cat_path = (duty_path.parent / table["catalogue"]).resolve()
-        catalogue, cat_name = read_toml(cat_path), cat_path.name
+        cat_path = referenced_path(duty_path, table["catalogue"])
+        catalogue = read_toml(cat_path, where=f"{duty_path.name}: [cycle] catalogue",
+                              what="catalogue")
+        cat_name = cat_path.name
     return Documents(docs={"robot": robot, "cycle": cycle, "catalogue": catalogue},
                      names={"robot": robot_path.name, "cycle": duty_path.name,
                             "catalogue": cat_name},

@@ -25,8 +25,6 @@ two executors (local processes, Dask distributed).
 
 from __future__ import annotations
 
-import csv
-import json
 import os
 import sys
 import time
@@ -39,127 +37,14 @@ from ._executors import Dask, Processes, drive, worker_env
 from ._pareto import pareto_ids
 from ._paths import PathError
 from ._spec import Sweep, check_figures, load_sweep
+from ._table import PointRecord, Table, read_manifest, write_json
 from ._worker import Context, Task, _plain, evaluate_point, one_line
 
-__all__ = ["PointRecord", "SweepResult", "evaluate_point", "progress_bar", "run_sweep"]
+#: most worker processes a sweep starts on this machine
+MAX_WORKERS = 1024
 
-FIXED_COLUMNS = ("id", "status", "message", "elapsed", "worker")
-STATUSES = ("ok", "failed", "error")
-
-
-# ------------------------------------------------------------------ records
-@dataclass(frozen=True)
-class PointRecord:
-    """One design point's row.
-
-    id; status "ok" (sized), "failed" (invalid combination: message says
-    why) or "error" (unexpected: recomputed on resume); message (the sizing
-    verdict's message when ok); elapsed s (in the worker); worker pid@host;
-    values: parameter key -> value; verdict: the sizing status ("pass",
-    "fail", "no catalogue") or None; figures: figure text -> value (None when
-    the point's summary lacks it).
-    """
-
-    id: str
-    status: str
-    message: str
-    elapsed: float
-    worker: str
-    values: dict
-    verdict: str | None
-    figures: dict
-
-    @property
-    def ok(self):
-        return self.status == "ok"
-
-
-# ------------------------------------------------------------------ CSV
-def _cell(value):
-    if value is None:
-        return ""
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if isinstance(value, float):
-        return repr(value)
-    if isinstance(value, (list, dict)):
-        return json.dumps(value, allow_nan=True)
-    return str(value)
-
-
-def _parse(cell):
-    if cell == "":
-        return None
-    if cell in ("true", "false"):
-        return cell == "true"
-    try:
-        return float(cell)
-    except ValueError:
-        return cell
-
-
-class _Table:
-    """The CSV of a sweep: header, rows appended and flushed one by one."""
-
-    def __init__(self, path, sweep):
-        self.path = Path(path)
-        self.sweep = sweep
-        self.columns = (list(FIXED_COLUMNS) + [p.key for p in sweep.parameters]
-                        + ["verdict"] + [f.text for f in sweep.figures])
-        self.fh = None
-
-    def read(self):
-        """{id: PointRecord} of the rows already written (the last row of an id
-        wins); a half-written last line is cut off."""
-        if not self.path.exists():
-            return {}
-        raw = self.path.read_bytes()
-        if raw and not raw.endswith(b"\n"):
-            with self.path.open("r+b") as fh:
-                fh.truncate(raw.rfind(b"\n") + 1)
-        with self.path.open(newline="", encoding="utf-8") as fh:
-            reader = csv.reader(fh)
-            header = next(reader, None)
-            if header is None:
-                return {}
-            if header != self.columns:
-                raise ConfigError(f"{self.path}: its columns differ from the sweep's "
-                                  f"({len(header)} against {len(self.columns)}): choose another "
-                                  f"output directory")
-            rows = {}
-            for row in reader:
-                if len(row) == len(self.columns) and row[1] in STATUSES:
-                    rec = self.record(dict(zip(self.columns, row)))
-                    rows[rec.id] = rec
-        return rows
-
-    def record(self, row):
-        params = self.sweep.parameters
-        values = {p.key: (float(row[p.key]) if p.numeric else row[p.key]) for p in params}
-        return PointRecord(id=row["id"], status=row["status"], message=row["message"],
-                           elapsed=float(row["elapsed"] or 0.0), worker=row["worker"],
-                           values=values, verdict=row["verdict"] or None,
-                           figures={f.text: _parse(row[f.text]) for f in self.sweep.figures})
-
-    def open(self):
-        new = not self.path.exists() or self.path.stat().st_size == 0
-        self.fh = self.path.open("a", newline="", encoding="utf-8")
-        self.writer = csv.writer(self.fh, lineterminator="\n")
-        if new:
-            self.writer.writerow(self.columns)
-            self.fh.flush()
-
-    def append(self, rec):
-        row = [rec.id, rec.status, rec.message, f"{rec.elapsed:.4f}", rec.worker]
-        row += [_cell(rec.values[p.key]) for p in self.sweep.parameters]
-        row += [_cell(rec.verdict)] + [_cell(rec.figures.get(f.text)) for f in self.sweep.figures]
-        self.writer.writerow(row)
-        self.fh.flush()
-
-    def close(self):
-        if self.fh is not None:
-            self.fh.close()
-            self.fh = None
+__all__ = ["PointRecord", "SweepResult", "check_options", "evaluate_point", "progress_bar",
+           "run_sweep"]
 
 
 # ------------------------------------------------------------------ result
@@ -252,44 +137,33 @@ class progress_bar:
 
 
 # ------------------------------------------------------------------ run
-def _executor(workers, cluster, local_cluster):
+def _executor_options(workers, cluster, local_cluster):
+    """ConfigError for options that do not make an executor."""
     if cluster is not None and local_cluster is not None:
         raise ConfigError("give either a Dask cluster address (--cluster) or a local cluster "
                           "size (--local-cluster), not both")
+    if (cluster is not None or local_cluster is not None) and workers is not None:
+        raise ConfigError("--workers counts local processes; with Dask the cluster's "
+                          "workers do the work (--local-cluster N starts N)")
+    for option, n, cap in (("--workers", workers, MAX_WORKERS),
+                           ("--local-cluster", local_cluster, MAX_WORKERS)):
+        if n is not None and (isinstance(n, bool) or not isinstance(n, int) or not 1 <= n <= cap):
+            raise ConfigError(f"{option} must be a number of processes from 1 to {cap}, "
+                              f"got {n!r}")
+    if isinstance(cluster, str) and not cluster.strip():
+        raise ConfigError("--cluster must be a Dask scheduler address, e.g. tcp://host:8786")
+
+
+def _executor(workers, cluster, local_cluster):
+    _executor_options(workers, cluster, local_cluster)
     if cluster is not None or local_cluster is not None:
-        if workers is not None:
-            raise ConfigError("--workers counts local processes; with Dask the cluster's "
-                              "workers do the work (--local-cluster N starts N)")
-        if local_cluster is not None and (isinstance(local_cluster, bool)
-                                          or int(local_cluster) != local_cluster
-                                          or local_cluster < 1):
-            raise ConfigError(f"--local-cluster must be a number of workers >= 1, "
-                              f"got {local_cluster!r}")
         return Dask(cluster=cluster, local_cluster=local_cluster)
-    workers = (os.cpu_count() or 1) if workers is None else workers
-    if isinstance(workers, bool) or int(workers) != workers or workers < 1:
-        raise ConfigError(f"--workers must be a number of processes >= 1, got {workers!r}")
-    return Processes(int(workers))
+    return Processes((os.cpu_count() or 1) if workers is None else workers)
 
 
-def _write_json(path, data):
-    tmp = path.with_name(path.name + ".part")
-    tmp.write_text(json.dumps(data, indent=2, ensure_ascii=False, default=str) + "\n",
-                   encoding="utf-8")
-    os.replace(tmp, path)
-
-
-def _base(sweep, out, manifest, resume):
-    """The base design's record and the figures' units: from the manifest of a
-    resumed sweep, else sized here (which also checks the figures)."""
-    if resume and manifest.exists():
-        data = json.loads(manifest.read_text(encoding="utf-8"))
-        if data.get("digest") != sweep.digest:
-            raise ConfigError(f"{out}: holds the output of a different sweep (base files, "
-                              f"[fixed], parameter keys, figures or search changed): choose "
-                              f"another output directory")
-        b = data["base"]
-        return PointRecord(**{**b, "values": {}}), data["units"]
+def _base(sweep):
+    """The base design's record and the figures' units, sized here (which
+    also checks the figures)."""
     from ..report import sizing_summary
     from ..sizing import size
 
@@ -354,22 +228,26 @@ def run_sweep(sweep, out_dir, *, workers=None, cluster=None, local_cluster=None,
                   `resume`)
     """
     t_start = time.perf_counter()
+    out, paths = check_options(out_dir, workers=workers, cluster=cluster,
+                               local_cluster=local_cluster, resume=resume)
     if not isinstance(sweep, Sweep):
         sweep = load_sweep(sweep)
-    out, paths = _output(out_dir, resume)
     context = Context(documents=sweep.documents, figures=sweep.figures, search=sweep.search)
-    table = _Table(paths["csv"], sweep)
-    base, units = _base(sweep, out, paths["manifest"], resume)
+    table = Table(paths["csv"], sweep)
     ids = {p.id for p in sweep.points}
+    resumed = None                   # both files checked before anything is written
+    if resume and paths["manifest"].exists():
+        resumed = read_manifest(paths["manifest"], sweep.digest)
     finished = {i: r for i, r in (table.read() if resume else {}).items()
                 if i in ids and r.status in ("ok", "failed")}
+    base, units = resumed or _base(sweep)
     todo = [p for p in sweep.points if p.id not in finished]
     t_compute = time.perf_counter()
     with worker_env():
         executor = _executor(workers, cluster, local_cluster) if todo else None
     described = executor.description if executor else "nothing left to compute"
     out.mkdir(parents=True, exist_ok=True)
-    _write_json(paths["manifest"], _manifest(sweep, base, units, described))
+    write_json(paths["manifest"], _manifest(sweep, base, units, described))
     collect = _Collector(sweep, table, finished, progress)
     tasks = [Task(id=p.id, assignments=tuple(sweep.assignments(p))) for p in todo]
     table.open()
@@ -394,7 +272,7 @@ def run_sweep(sweep, out_dir, *, workers=None, cluster=None, local_cluster=None,
                          compute_time=compute_time, paths=paths)
     manifest = _manifest(sweep, base, units, described)
     manifest["result"] = result.to_dict()
-    _write_json(paths["manifest"], manifest)
+    write_json(paths["manifest"], manifest)
     if write_page:
         from ._page import write_page as _write_page
 
@@ -402,15 +280,22 @@ def run_sweep(sweep, out_dir, *, workers=None, cluster=None, local_cluster=None,
     return result
 
 
-def _output(out_dir, resume):
-    """The output directory and its files; an existing CSV needs `resume`."""
-    out = Path(out_dir)
-    if out.exists() and not out.is_dir():
-        raise ConfigError(f"-o {out}: exists and is not a directory")
+def check_options(out_dir, *, workers=None, cluster=None, local_cluster=None, resume=False):
+    """The options of a sweep checked before anything is loaded or computed:
+    the executor's (`_executor` rules) and the output directory (writable; an
+    existing CSV needs `resume`; `resume` needs a directory that is empty or
+    holds a sweep's manifest).  Returns (out, paths of csv, manifest, html)."""
+    from ..description import check_output_dir
+
+    _executor_options(workers, cluster, local_cluster)
+    out = check_output_dir(out_dir)
     paths = {"csv": out / "sweep.csv", "manifest": out / "sweep.json", "html": out / "sweep.html"}
     if paths["csv"].exists() and not resume:
         raise ConfigError(f"{paths['csv']} exists: pass --resume to continue that sweep, or "
                           f"choose another output directory")
+    if resume and out.is_dir() and any(out.iterdir()) and not paths["manifest"].is_file():
+        raise ConfigError(f"--resume {out}: the directory is not a sweep's output (no "
+                          f"sweep.json): choose the directory of the interrupted sweep")
     return out, paths
 
 
@@ -449,7 +334,7 @@ def _manifest(sweep, base, units, executor):
 
     return {"opspace_version": __version__, "sweep": sweep.name, "file": sweep.path.name,
             "digest": sweep.digest, "points": len(sweep.points), "executor": executor,
-            "columns": _Table(Path("-"), sweep).columns, "units": units,
+            "columns": Table(Path("-"), sweep).columns, "units": units,
             "parameters": [{"key": p.key, "label": p.label, "unit": p.unit,
                             "sampling": p.spec} for p in sweep.parameters],
             "base": {"id": base.id, "status": base.status, "message": base.message,

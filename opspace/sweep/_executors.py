@@ -88,7 +88,8 @@ class Processes:
         if self._pool is not None:
             self._pool.shutdown(wait=True, cancel_futures=True)
         self._pool = cf.ProcessPoolExecutor(max_workers=self.workers, mp_context=self._mp,
-                                            initializer=_init_process)
+                                            initializer=_init_process,
+                                            initargs=(os.getpid(),))
         self.broken = False
 
     @property

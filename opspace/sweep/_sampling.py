@@ -20,7 +20,8 @@ from . import _docs as _docs
 
 __all__ = ["Point", "design_points", "latin_hypercube", "point_id", "range_values", "random_bounds"]
 
-MAX_POINTS = 1_000_000
+#: most design points of one sweep (and values of one range)
+MAX_POINTS = 100_000
 
 
 @dataclass(frozen=True)
@@ -62,6 +63,8 @@ def range_values(where, raw):
         num = raw["num"]
         if isinstance(num, bool) or not isinstance(num, int) or num < 2:
             raise ConfigError(f"{where} num must be an integer >= 2, got {num!r}")
+        if num > MAX_POINTS:          # before building anything
+            raise ConfigError(f"{where} num = {num} is more than {MAX_POINTS} values")
         count = num
         values = [_snap(start + k * (stop - start) / (num - 1)) for k in range(num - 1)] + [stop]
         spec = f"range {start:g} to {stop:g}, {num} values"
@@ -72,7 +75,14 @@ def range_values(where, raw):
         if (stop - start) * step < 0:
             raise ConfigError(f"{where} step = {step:g} goes away from stop ({start:g} to "
                               f"{stop:g}): its sign must be that of stop - start")
-        count = int(math.floor((stop - start) / step + 1e-9)) + 1
+        span = (stop - start) / step
+        if not span < MAX_POINTS:          # before building anything (also catches overflow)
+            raise ConfigError(f"{where} {{start, stop, step}} makes {span:.3g} values (more "
+                              f"than {MAX_POINTS}): check step = {step:g}")
+        if span < 1.0 - 1e-9:
+            raise ConfigError(f"{where} step = {step:g} is longer than the range from start "
+                              f"{start:g} to stop {stop:g}: it makes one value")
+        count = int(math.floor(span + 1e-9)) + 1
         if count > MAX_POINTS:
             raise ConfigError(f"{where} has {count} values (more than {MAX_POINTS}): "
                               f"check step = {step:g}")

@@ -20,7 +20,7 @@ import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ..description import Entry, Section, read_document
+from ..description import Entry, Section, read_document, referenced_path
 from ..errors import ConfigError
 from . import _docs as _docs
 from ._paths import PathError, Step, matches, parse_figure, parse_path
@@ -156,7 +156,7 @@ def load_sweep(path):
     fname = path.name
     head = _read_head(Section(path, "sweep", doc["sweep"]), path)
     name, duty_rel, search, samples, seed, best, require_pass, figure_texts = head
-    duty_path = (path.parent / duty_rel).resolve()
+    duty_path = referenced_path(path, duty_rel)
     documents = _docs.read_documents(duty_path, where=f"{fname}: [sweep] duty_cycle")
     _trial(documents, [], f"{fname}: [sweep] duty_cycle")
     fixed = _read_fixed(path, doc.get("fixed", {}), documents)
@@ -168,6 +168,7 @@ def load_sweep(path):
     for i, entry in enumerate(entries, start=1):
         params.append(_read_parameter(path, i, entry, documents, fixed_assign))
     _check_unique(fname, params, fixed)
+    _check_values(path, params, documents, fixed_assign)
     randoms = [p for p in params if p.sampling == "random"]
     if randoms and samples is None:
         raise ConfigError(f"{fname}: [sweep] samples is missing: parameter "
@@ -333,20 +334,33 @@ def _describe(value):
     return f"{type(value).__name__} {value!r}"
 
 
+#: documents loaded by the trials, keyed on their content (read only)
+_TRIALS = _docs.Cache(size=16)
+
+
 def _trial(documents, assignments, where):
-    """Load the documents with `assignments`; a loader's "not a known key"
-    becomes an unknown-key error at `where`."""
+    """Load the documents with `assignments` (and cross-check the duty cycle
+    against the robot when either changes); the loader's message, or None
+    when they load.  A "not a known key", or any problem of the base files
+    (no assignments), is raised as a ConfigError at `where`."""
+    from ..description import check_against_robot
+
     docs = _docs.apply(documents.docs, assignments)
     roots = {a[0] for a in assignments} or set(_docs.ROOTS)
-    for root in _docs.ROOTS:
-        if root in roots and docs[root] is not None:
-            try:
-                _docs._LOADERS[root](documents, docs[root])
-            except ConfigError as exc:
-                text = str(exc)
-                if not assignments or "is not a known" in text:
-                    raise ConfigError(f"{where}: {text}") from None
-                return text
+    loaded = {}
+    try:
+        for root in _docs.ROOTS:
+            if root in roots and docs[root] is not None:
+                loaded[root] = _TRIALS.get(documents, root, docs[root])
+        if roots & {"robot", "cycle"}:
+            robot = loaded.get("robot") or _TRIALS.get(documents, "robot", docs["robot"])
+            duty = loaded.get("cycle") or _TRIALS.get(documents, "cycle", docs["cycle"])
+            check_against_robot(duty, robot)
+    except ConfigError as exc:
+        text = str(exc)
+        if not assignments or "is not a known" in text:
+            raise ConfigError(f"{where}: {text}") from None
+        return text
     return None
 
 
@@ -418,7 +432,7 @@ def _read_parameter(path, i, entry, documents, fixed):
     try:
         root, steps, base, exists = locate(documents, key)
     except ValueError as exc:
-        raise ConfigError(f"{s.where('')}: {exc}") from None
+        raise ConfigError(f"{s.where('key')}: {exc}") from None
     action, vtype = _kind_of(base, exists)
     where = s.where(sampling)
     if action is None:
@@ -445,16 +459,50 @@ def _read_parameter(path, i, entry, documents, fixed):
     else:
         low, high = random_bounds(where, raw)
         values, spec = (), f"Latin hypercube in [{low:g}, {high:g}]"
-    trial_value = values[0] if values else low
-    if not exists or action == "one":
-        probe = trial_value if not exists else base[0]
-        msg = _trial(documents, fixed + [(root, steps, action, probe)], s.where(""))
-        if msg is not None and action == "one":
+    if action == "one":
+        msg = _trial(documents, fixed + [(root, steps, action, base[0])], s.where(""))
+        if msg is not None:
             raise ConfigError(f"{s.where('')}: the target is a list of {len(base)} numbers: "
                               f"name one entry, e.g. '{key}[0]' ({msg})")
     return Parameter(key=key, root=root, steps=steps, action=action, sampling=sampling,
                      values=values, low=low, high=high, label=label, unit=unit,
                      base=base, spec=spec)
+
+
+def _check_values(path, params, documents, fixed):
+    """Each parameter's values tried on the base files before any point runs
+    (`_probes`).  A value that fails on its own is refused when it also fails
+    with every other parameter at its lowest and at its highest probe: then no
+    point can use it.  A value that breaks a rule only with some values of the
+    other parameters (an invalid combination) is left to its points."""
+    def at(p, v):
+        return (p.root, p.steps, p.action, v)
+
+    probes = [_probes(p.values, p.low, p.high, "number" if p.numeric else "text")
+              for p in params]
+    for i, p in enumerate(params):
+        where = Entry(path, "parameter", i + 1, {"key": p.key}, "key").where(p.sampling)
+        for v in probes[i]:
+            msg = _trial(documents, fixed + [at(p, v)], where)
+            if msg is None:
+                continue
+            contexts = [[at(q, probes[j][k]) for j, q in enumerate(params) if j != i]
+                        for k in (0, -1)]
+            if all(_trial(documents, fixed + ctx + [at(p, v)], where) for ctx in contexts
+                   if ctx):
+                raise ConfigError(f"{where}: {v!r} is not valid there: {msg}")
+
+
+def _probes(values, low, high, vtype):
+    """The values of a parameter tried on the base files before any point
+    runs: every name or text, else the extremes (and 0 when listed): the
+    files' rules are ranges, so the extremes pass when every value does (a
+    combination of parameters that breaks a rule still fails at its point)."""
+    if vtype != "number":
+        return list(dict.fromkeys(values))
+    pool = list(values) or [low, high]
+    probes = [min(pool), max(pool)] + ([0.0] if 0.0 in pool else [])
+    return list(dict.fromkeys(probes))
 
 
 # ------------------------------------------------------------------ figures

@@ -9,6 +9,7 @@ thread, so that n workers use n cores.
 
 from __future__ import annotations
 
+import os
 import time
 from dataclasses import dataclass
 
@@ -55,11 +56,44 @@ def _setup_worker():
     set_batch_threads(1)
 
 
-def _init_process():
+def _alive(pid):
+    """Whether process `pid` runs (a zombie, dead but not yet reaped, does not)."""
+    try:
+        with open(f"/proc/{pid}/stat", "rb") as fh:
+            return fh.read().rsplit(b")", 1)[1].split()[0] not in (b"Z", b"X")
+    except FileNotFoundError:
+        return False
+    except OSError:            # no /proc: ask the kernel
+        try:
+            os.kill(pid, 0)
+        except ProcessLookupError:
+            return False
+        except PermissionError:
+            pass
+        return True
+
+
+def _watch(main_pid, period):
+    """End this worker when the main process has died (a daemon thread).
+
+    A local pool's workers are children of a fork server, not of the main
+    process: when the main process is killed (kill -9 included) nothing else
+    tells them, and they would finish their points for nobody."""
+    while True:
+        time.sleep(period)
+        if not _alive(main_pid):
+            os._exit(1)
+
+
+def _init_process(main_pid=None, period=0.5):
     import signal
+    import threading
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)   # Ctrl-C is the parent's to handle
     _setup_worker()
+    if main_pid is not None:
+        threading.Thread(target=_watch, args=(main_pid, period), daemon=True,
+                         name="opspace-main-watch").start()
 
 
 def _plain(value):

@@ -64,7 +64,7 @@ from opspace.description import load_scenario
 from opspace.model import GRAVITY, load_robot
 from opspace import _compiled
 from opspace.simulation import ScenarioRun
-from opspace.dynamics._joint_space import compiled_plant
+from opspace.dynamics import compiled_plant
 from opspace.simulation._loop import _Plant, _rk4
 
 PICK = Path(__file__).resolve().parents[2] / "models" / "marmot" / "pick.toml"
