@@ -22,7 +22,7 @@ from collections import OrderedDict
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..description import read_toml, robot_urdf
+from ..description import read_toml, referenced_path, robot_urdf
 from ..errors import ConfigError
 
 __all__ = ["Documents", "digest", "read_documents"]
