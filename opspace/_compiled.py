@@ -17,7 +17,8 @@ import warnings
 import numpy as np
 import pinocchio as pin
 
-__all__ = ["available", "frame_placements", "inverse_dynamics_kernel", "kernel_plant"]
+__all__ = ["available", "frame_placements", "inverse_dynamics_kernel", "kernel_controller",
+           "kernel_plant", "kernel_terms", "output_layout", "target_layout"]
 
 
 @functools.cache
@@ -55,6 +56,63 @@ def kernel_plant(S, free, coulomb, viscous, friction, A_pinv, casters, c_rr, r):
     return k.Plant(np.asarray(S, float), np.asarray(free, float), np.asarray(coulomb, float),
                    np.asarray(viscous, float), bool(friction), np.asarray(A_pinv, float),
                    np.asarray(casters, float).reshape(-1, 4), float(c_rr), float(r))
+
+
+def _friction_model(k, friction):
+    """The kernel's `FrictionModel`, its fields set by name from a dict (the keys
+    of `opspace.dynamics.friction_model`)."""
+    m = k.FrictionModel()
+    m.coulomb = np.asarray(friction["coulomb"], float)
+    m.viscous = np.asarray(friction["viscous"], float)
+    m.contact_rows = np.asarray(friction["contact_rows"], float)
+    m.caster_rows = np.asarray(friction["caster_rows"], float).reshape(-1, 4)
+    m.rolling_resistance = float(friction["rolling_resistance"])
+    m.wheel_radius = float(friction["wheel_radius"])
+    return m
+
+
+def kernel_controller(S, GG, q0, limit, rows, options, friction):
+    """A compiled `Controller` (see _kernel.cpp), or None if unavailable.
+
+    options: a dict of the kernel's `ControllerOptions` fields, set by name
+    (frame_id, whole_body, angular, posture, friction_feedforward,
+    wheel_radius, half_track, wheel_gain, friction_velocity, damping2);
+    friction: the friction model's named arrays (`opspace.dynamics.friction_model`).
+    """
+    k = _module()
+    if k is None:
+        return None
+    o = k.ControllerOptions()
+    for name, value in options.items():
+        if not hasattr(o, name):
+            raise AttributeError(f"the kernel's ControllerOptions has no field {name!r}")
+        setattr(o, name, value)
+    return k.Controller(np.asarray(S, float), np.asarray(GG, float), np.asarray(q0, float),
+                        np.asarray(limit, float), np.asarray(rows, float), o,
+                        _friction_model(k, friction))
+
+
+def target_layout():
+    """{field: (offset, size)} of the compiled command's target vector, from the
+    kernel (its only description), or None if unavailable."""
+    k = _module()
+    return None if k is None else {n: (o, s) for n, o, s in k.Controller.target_layout()}
+
+
+def output_layout(nv, k_rows):
+    """[(field, offset, rows, cols)] of the compiled command's output buffer, from
+    the kernel (its only description), or None if unavailable."""
+    k = _module()
+    return None if k is None else list(k.Controller.output_layout(nv, k_rows))
+
+
+def kernel_terms(S, friction):
+    """The compiled `Terms` (M_r, h_r, g_r, J_r, J̇ν, friction, rolling, contact
+    loads one at a time; see _kernel.cpp), or None if unavailable."""
+    k = _module()
+    if k is None:
+        return None
+    return k.Terms(np.asarray(S, float), _friction_model(k, friction))
 
 
 def frame_placements(robot, qs, frame_id):

@@ -14,6 +14,12 @@
 //
 // Built by hatch_build.py against the Pinocchio, eigenpy and Boost.Python of
 // the `pin` wheel; opspace/_compiled.py checks the versions match at import.
+//
+// The named terms of opspace/dynamics/_terms.py are here too (`Terms`: M_r,
+// h_r, g_r, J_r, J̇ν, friction, rolling resistance, static contact loads),
+// and the friction model is one `FrictionModel` with named fields, read by
+// `Friction`; the controller takes its options by name (`ControllerOptions`)
+// and describes its own buffers (`target_layout`, `output_layout`).
 
 #include <pinocchio/algorithm/center-of-mass.hpp>
 #include <pinocchio/algorithm/crba.hpp>
@@ -55,6 +61,11 @@ class Rolling {
       : A_(A), casters_(casters), c_rr_(c_rr), r_(r),
         cN_(static_cast<size_t>(casters.rows()), 0.0) {}
 
+  // contact i's resistance level of the last `load`: C_rr N_i r on a drive
+  // wheel (i < 2), C_rr N_i on a caster (with c_rr = r = 1: the load N_i)
+  double level(Eigen::Index i) const { return i == 0 ? k0_ : i == 1 ? k1_ : cN_[size_t(i - 2)]; }
+  Eigen::Index contacts() const { return 2 + casters_.rows(); }
+
   // the loads at q (forward kinematics and the COM into data); `placed`: the
   // joint placements in data are those of q already (no kinematics pass)
   void load(const Model& model, Data& data, CRefV q, bool placed = false) {
@@ -95,6 +106,49 @@ class Rolling {
   MatrixXd A_, casters_;
   double c_rr_, r_, k0_ = 0.0, k1_ = 0.0;
   std::vector<double> cN_;
+};
+
+// The friction model, named (`opspace.dynamics._terms`): f_C, f_v (nv,)
+// per coordinate, the static-load rows A⁺ (2 + n_casters, 3) and the casters'
+// ground-velocity rows (n_casters, 4) = (J_x0, J_x1, J_y0, J_y1), C_rr and
+// the wheel radius r (m).  Bound to Python with these field names.
+struct FrictionModel {
+  VectorXd coulomb, viscous;
+  MatrixXd contact_rows, caster_rows;
+  double rolling_resistance = 0.0, wheel_radius = 0.0;
+};
+
+// Friction on the left-hand side, f = f_C σ(ν) + f_v ν + f_rr(q, ν), with
+// σ = sign, or tanh(ν / v_s) when smoothing v_s > 0 (`coulomb_viscous`,
+// `RollingLoads`).  The rolling part uses the loads of the last `load`.
+// A friction law with more state (stick-slip) extends this class.
+class Friction {
+ public:
+  explicit Friction(const FrictionModel& m)
+      : m_(m), rolling_(m.contact_rows, m.caster_rows, m.rolling_resistance, m.wheel_radius),
+        has_rolling_(m.rolling_resistance > 0.0) {}
+
+  bool has_rolling() const { return has_rolling_; }
+  void load(const Model& model, Data& data, CRefV q, bool placed = false) {
+    rolling_.load(model, data, q, placed);
+  }
+
+  // f_C σ(ν) + f_v ν, element by element into f
+  template <class Out>
+  void coulomb_viscous(CRefV nu, double smoothing, Out&& f) const {
+    for (Eigen::Index i = 0; i < nu.size(); ++i) {
+      const double s = smoothing > 0.0 ? std::tanh(nu[i] * (1.0 / smoothing)) : sign(nu[i]);
+      f[i] = m_.coulomb[i] * s + m_.viscous[i] * nu[i];
+    }
+  }
+
+  // (f_r, f_l) of the rolling resistance at the loaded configuration
+  void rolling(CRefV nu, double& f0, double& f1) const { rolling_.efforts(nu[0], nu[1], f0, f1); }
+
+ private:
+  FrictionModel m_;
+  Rolling rolling_;
+  bool has_rolling_;
 };
 
 // The reduction of the differential-drive base, S = [A 0; I₂ 0; 0 I] (the
@@ -292,29 +346,75 @@ class Plant {
   Eigen::LLT<MatrixXd> llt_;
 };
 
+// The controller's settings, named (bound to Python with these field names).
+struct ControllerOptions {
+  int frame_id = 0;                 // the task frame
+  bool whole_body = true;           // false: arm only, the wheels on their servo
+  bool angular = false;             // the task has angular rows (a target rotation)
+  bool posture = false;             // a posture q₀ in the null space
+  bool friction_feedforward = false;
+  double wheel_radius = 0.0, half_track = 0.0;  // m
+  double wheel_gain = 0.0;          // K_w, 1/s
+  double friction_velocity = 0.0;   // v_s of the smoothed Coulomb term (0: sign)
+  double damping2 = 0.0;            // ε² of the damped task inverse
+};
+
+// The command's target vector x, one field after the other: its only
+// description (Python packs by these names, `Controller.target_layout()`).
+enum TargetField : Eigen::Index { kPosition = 0, kRotation = 3, kVelocity = 12,
+                                  kAcceleration = 18, kPlanV = 24, kPlanOmega = 25,
+                                  kPlanA = 26, kPlanAlpha = 27, kTargetSize = 28 };
+
+bp::list target_layout() {
+  bp::list out;
+  const char* names[] = {"position", "rotation", "velocity", "acceleration", "plan_v",
+                         "plan_omega", "plan_a", "plan_alpha"};
+  const Eigen::Index at[] = {kPosition, kRotation, kVelocity, kAcceleration, kPlanV,
+                             kPlanOmega, kPlanA, kPlanAlpha, kTargetSize};
+  for (int i = 0; i < 8; ++i) out.append(bp::make_tuple(names[i], at[i], at[i + 1] - at[i]));
+  return out;
+}
+
+// The command's output buffer, one field after the other (rows, columns;
+// matrices row-major): its only description (`Controller.output_layout()`).
+enum OutputField { kQSent, kQ, kLB, kJdotNu, kG, kM, kH, kZ, kJ, kOutputFields };
+
+std::vector<std::pair<Eigen::Index, Eigen::Index>> output_shapes(Eigen::Index nv,
+                                                                 Eigen::Index k) {
+  return {{nv, 1}, {nv, 1}, {k, k + 1}, {k, 1}, {k + nv, 1}, {nv, nv}, {nv, 1},
+          {6 + 2 * k, 1}, {k, nv}};
+}
+
+bp::list output_layout(Eigen::Index nv, Eigen::Index k) {
+  const char* names[] = {"Q_sent", "Q", "LB", "Jdot_nu", "g", "M", "h", "z", "J"};
+  bp::list out;
+  Eigen::Index at = 0;
+  const auto shapes = output_shapes(nv, k);
+  for (int i = 0; i < kOutputFields; ++i) {
+    out.append(bp::make_tuple(names[i], at, shapes[size_t(i)].first, shapes[size_t(i)].second));
+    at += shapes[size_t(i)].first * shapes[size_t(i)].second;
+  }
+  return out;
+}
+
 // The task-space computed-torque command (OperationalSpaceController._command).
 class Controller {
  public:
   // S (nv_full, nv); GG (k + nv, 6 + 2k + nv + n_arm) = diag(G, G0); q0 (n_arm,)
-  // posture; coulomb, viscous, limit (nv,); A, casters, as for Plant; rows (k,)
-  // task rows of [linear; angular]; flags = (frame id, whole body, angular,
-  // posture, friction feed-forward, rolling); scalars = (wheel radius r, half
-  // track b, wheel gain K_w, friction velocity v_s, c_rr, ε²).
-  Controller(const MatrixXd& S, const MatrixXd& GG, const VectorXd& q0, const VectorXd& coulomb,
-             const VectorXd& viscous, const VectorXd& limit, const MatrixXd& A,
-             const MatrixXd& casters, const VectorXd& rows, const VectorXd& flags,
-             const VectorXd& scalars)
-      : red_(S), GG_(GG), q0_(q0), coulomb_(coulomb), viscous_(viscous),
-        limit_(limit), rolling_model_(A, casters, scalars[4], scalars[0]) {
+  // posture; limit (nv,); rows (k,) task rows of [linear; angular]; the
+  // options and the friction model, named.
+  Controller(const MatrixXd& S, const MatrixXd& GG, const VectorXd& q0, const VectorXd& limit,
+             const VectorXd& rows, const ControllerOptions& o, const FrictionModel& friction)
+      : red_(S), GG_(GG), q0_(q0), limit_(limit), friction_model_(friction) {
     for (Eigen::Index i = 0; i < rows.size(); ++i) rows_.push_back(static_cast<int>(rows[i]));
-    fid_ = static_cast<pinocchio::FrameIndex>(flags[0]);
-    whole_body_ = flags[1] != 0.0;
-    angular_ = flags[2] != 0.0;
-    posture_ = flags[3] != 0.0;
-    friction_ = flags[4] != 0.0;
-    rolling_ = flags[5] != 0.0;
-    r_ = scalars[0], b_ = scalars[1], kw_ = scalars[2], vs_ = scalars[3];
-    eps2_ = scalars[5];
+    fid_ = static_cast<pinocchio::FrameIndex>(o.frame_id);
+    whole_body_ = o.whole_body;
+    angular_ = o.angular;
+    posture_ = o.posture;
+    friction_ = o.friction_feedforward;
+    rolling_ = friction_model_.has_rolling();
+    r_ = o.wheel_radius, b_ = o.half_track, kw_ = o.wheel_gain, vs_ = o.friction_velocity;
+    eps2_ = o.damping2;
     k_ = static_cast<Eigen::Index>(rows_.size());
     nv_ = S.cols();
     n_arm_ = nv_ - 2;
@@ -327,34 +427,36 @@ class Controller {
     M_nd0_.resize(nv_);
     fe_.resize(k_ + 1);
     nu_dot_.resize(nv_);
+    f_.resize(nv_);
     eye_ = MatrixXd::Identity(k_, k_);
+    const auto shapes = output_shapes(nv_, k_);
+    Eigen::Index at = 0;
+    for (const auto& rc : shapes) {
+      offsets_.push_back(at);
+      at += rc.first * rc.second;
+    }
+    out_size_ = at;
     rhs_.resize(whole_body_ ? nv_ : nv_ - 2, k_ + 1);
   }
 
-  // x = [p_d (3), R_d (9, row-major), v_d (6), a_d (6), plan v, ω, a, α];
-  // out = [Q_sent | Q | LB (k, k+1) | J̇ν (k) | g (k + nv) | M (nv, nv) | h (nv) |
-  //        z (6 + 2k) | J (k, nv)], matrices row-major.  Returns 0, or 2 when
+  // x: the target (`TargetField`); out: the output buffer (`OutputField`,
+  // `output_layout`).  Returns 0, 1 when a buffer has the wrong size, or 2 when
   // the task mobility is not safely invertible (the caller takes the damped path).
   int command(const Model& model, Data& data, CRefV q, CRefV nu, CRefV x, RefV out) {
     using RowMat = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
     using MapR = Eigen::Map<RowMat>;
     const Eigen::Index k = k_, nv = nv_;
+    if (out.size() != out_size_ || x.size() != kTargetSize) return 1;
     double* o = out.data();
-    Eigen::Map<VectorXd> Q_sent(o, nv), Q(o + nv, nv);
-    o += 2 * nv;
-    MapR LB(o, k, k + 1);
-    o += k * (k + 1);
-    Eigen::Map<VectorXd> Jdot_nu(o, k);
-    o += k;
-    Eigen::Map<VectorXd> g(o, k + nv);
-    o += k + nv;
-    MapR M(o, nv, nv);
-    o += nv * nv;
-    Eigen::Map<VectorXd> h(o, nv);
-    o += nv;
-    Eigen::Map<VectorXd> z(o, 6 + 2 * k);
-    o += 6 + 2 * k;
-    MapR J(o, k, nv);
+    auto at = [&](OutputField f) { return o + offsets_[size_t(f)]; };
+    Eigen::Map<VectorXd> Q_sent(at(kQSent), nv), Q(at(kQ), nv);
+    MapR LB(at(kLB), k, k + 1);
+    Eigen::Map<VectorXd> Jdot_nu(at(kJdotNu), k);
+    Eigen::Map<VectorXd> g(at(kG), k + nv);
+    MapR M(at(kM), nv, nv);
+    Eigen::Map<VectorXd> h(at(kH), nv);
+    Eigen::Map<VectorXd> z(at(kZ), 6 + 2 * k);
+    MapR J(at(kJ), k, nv);
 
     red_.velocity(nu, v_);
     pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);
@@ -371,8 +473,8 @@ class Controller {
     const pinocchio::SE3& X = pinocchio::updateFramePlacement(model, data, fid_);
 
     // z = [e₆; ẋ_d − ẋ; ẍ_d − J̇ν]
-    Eigen::Map<const Eigen::Matrix<double, 3, 3, Eigen::RowMajor>> R_d(x.data() + 3);
-    z.head<3>() = x.head<3>() - X.translation();
+    Eigen::Map<const Eigen::Matrix<double, 3, 3, Eigen::RowMajor>> R_d(x.data() + kRotation);
+    z.head<3>() = x.segment<3>(kPosition) - X.translation();
     if (angular_)
       z.segment<3>(3) = pinocchio::log3(Eigen::Matrix3d(R_d * X.rotation().transpose()));
     else
@@ -381,8 +483,8 @@ class Controller {
     for (Eigen::Index i = 0; i < k; ++i) {
       const int row = rows_[size_t(i)];
       Jdot_nu[i] = acc[row];
-      z[6 + i] = x[12 + row] - Jnu_[i];
-      z[6 + k + i] = x[18 + row] - acc[row];
+      z[6 + i] = x[kVelocity + row] - Jnu_[i];
+      z[6 + k + i] = x[kAcceleration + row] - acc[row];
     }
     // g = GG w = [a* − J̇ν; ν̇₀], w = [z; ν; q₀ − q_arm]
     const Eigen::Index nz = 6 + 2 * k;
@@ -393,7 +495,7 @@ class Controller {
     auto ga = g.head(k);
     auto nd0 = g.tail(nv);
     {   // the base plan's wheel terms ν̇_w,plan + K_w ν_w,plan
-      const double vp = x[26] + kw_ * x[24], wp = x[27] + kw_ * x[25];
+      const double vp = x[kPlanA] + kw_ * x[kPlanV], wp = x[kPlanAlpha] + kw_ * x[kPlanOmega];
       nd0[0] += (vp + b_ * wp) / r_;
       nd0[1] += (vp - b_ * wp) / r_;
     }
@@ -432,14 +534,12 @@ class Controller {
       Q += h;
     }
     if (friction_) {
-      for (Eigen::Index i = 0; i < nv; ++i) {
-        const double c = vs_ > 0.0 ? std::tanh(nu[i] * (1.0 / vs_)) : sign(nu[i]);
-        Q[i] += coulomb_[i] * c + viscous_[i] * nu[i];
-      }
+      friction_model_.coulomb_viscous(nu, vs_, f_);
+      Q += f_;
       if (rolling_) {
         double f0, f1;
-        rolling_model_.load(model, data, q, true);   // data holds q's placements
-        rolling_model_.efforts(nu[0], nu[1], f0, f1);
+        friction_model_.load(model, data, q, true);   // data holds q's placements
+        friction_model_.rolling(nu, f0, f1);
         Q[0] += f0;
         Q[1] += f1;
       }
@@ -463,16 +563,109 @@ class Controller {
 
   Reduction red_;
   MatrixXd GG_;
-  VectorXd q0_, coulomb_, viscous_, limit_;
-  Rolling rolling_model_;
+  VectorXd q0_, limit_;
+  Friction friction_model_;
   std::vector<int> rows_;
+  std::vector<Eigen::Index> offsets_;
+  Eigen::Index out_size_ = 0;
   pinocchio::FrameIndex fid_;
   bool whole_body_, angular_, posture_, friction_, rolling_;
   double r_, b_, kw_, vs_, eps2_;
   Eigen::Index k_, nv_, n_arm_;
   MatrixXd J6_, rhs_, Y_, JY_, eye_;
-  VectorXd w_, zero_, v_, Jnu_, bvec_, M_nd0_, fe_, nu_dot_;
+  VectorXd w_, zero_, v_, Jnu_, bvec_, M_nd0_, fe_, nu_dot_, f_;
   Eigen::LLT<MatrixXd> llt_, task_llt_;
+};
+
+// The named reduced terms one at a time: the compiled side of
+// opspace/dynamics/_terms.py (M_r, h_r, g_r, J_r, J̇ν, friction, rolling
+// resistance, static contact loads), for the checks that hold each to its
+// NumPy twin; Plant and Controller use the same pieces (Reduction, Friction).
+class Terms {
+ public:
+  Terms(const MatrixXd& S, const FrictionModel& friction)
+      : red_(S), friction_(friction),
+        loads_(friction.contact_rows, friction.caster_rows, 1.0, 1.0), nv_(S.cols()),
+        v_(S.rows()), zero_(VectorXd::Zero(S.rows())), J6_(MatrixXd::Zero(6, S.rows())) {}
+
+  // M_r = Sᵀ M S
+  MatrixXd mass(const Model& model, Data& data, CRefV q) {
+    pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);
+    MatrixXd Mr(nv_, nv_);
+    red_.mass(data.M, Mr);
+    return Mr;
+  }
+  // h_r = Sᵀ h(q, S ν) = c + g
+  VectorXd bias(const Model& model, Data& data, CRefV q, CRefV nu) {
+    red_.velocity(nu, v_);
+    pinocchio::nonLinearEffects(model, data, q, v_);
+    VectorXd h(nv_);
+    red_.force(data.nle, h);
+    return h;
+  }
+  // g_r = Sᵀ g(q)
+  VectorXd gravity(const Model& model, Data& data, CRefV q) {
+    pinocchio::computeGeneralizedGravity(model, data, q);
+    VectorXd g(nv_);
+    red_.force(data.g, g);
+    return g;
+  }
+  // J_r (6, nv) of a frame, [linear; angular], world-aligned at the frame origin
+  MatrixXd jacobian(const Model& model, Data& data, CRefV q, int fid) {
+    pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);   // fills data.J
+    J6_.setZero();
+    pinocchio::getFrameJacobian(model, data, static_cast<pinocchio::FrameIndex>(fid),
+                                pinocchio::LOCAL_WORLD_ALIGNED, J6_);
+    MatrixXd J(6, nv_);
+    for (Eigen::Index i = 0; i < 6; ++i) red_.jacobian_row(J6_.row(i), J.row(i));
+    return J;
+  }
+  // J̇ν (6,): the frame's classical acceleration at ν̇ = 0
+  VectorXd jdot_nu(const Model& model, Data& data, CRefV q, CRefV nu, int fid) {
+    red_.velocity(nu, v_);
+    pinocchio::forwardKinematics(model, data, q, v_, zero_);
+    return pinocchio::getFrameClassicalAcceleration(model, data,
+                                                    static_cast<pinocchio::FrameIndex>(fid),
+                                                    pinocchio::LOCAL_WORLD_ALIGNED)
+        .toVector();
+  }
+  // f = f_C σ(ν) + f_v ν + f_rr(q, ν), smoothing v_s as in `Friction`
+  VectorXd friction(const Model& model, Data& data, CRefV q, CRefV nu, double smoothing) {
+    VectorXd f(nv_);
+    friction_.coulomb_viscous(nu, smoothing, f);
+    if (friction_.has_rolling()) {
+      double f0, f1;
+      friction_.load(model, data, q);
+      friction_.rolling(nu, f0, f1);
+      f[0] += f0;
+      f[1] += f1;
+    }
+    return f;
+  }
+  // f_rr (nv,): the rolling resistance alone
+  VectorXd rolling(const Model& model, Data& data, CRefV q, CRefV nu) {
+    VectorXd f = VectorXd::Zero(nv_);
+    if (friction_.has_rolling()) {
+      friction_.load(model, data, q);
+      friction_.rolling(nu, f[0], f[1]);
+    }
+    return f;
+  }
+  // N (k,): the static contact loads at q
+  VectorXd contact_loads(const Model& model, Data& data, CRefV q) {
+    loads_.load(model, data, q);
+    VectorXd N(loads_.contacts());
+    for (Eigen::Index i = 0; i < N.size(); ++i) N[i] = loads_.level(i);
+    return N;
+  }
+
+ private:
+  Reduction red_;
+  Friction friction_;
+  Rolling loads_;          // with C_rr = r = 1: its levels are the loads
+  Eigen::Index nv_;
+  VectorXd v_, zero_;
+  MatrixXd J6_;
 };
 
 // Reduced inverse dynamics without friction: Q = Sᵀ RNEA(q, S ν, S ν̇)
@@ -511,6 +704,45 @@ void frame_placements(const Model& model, Data& data, CRefV qs, int fid, RefV ou
 
 }  // namespace
 
+template <class T>
+bp::object vector_field(T FrictionModel::*m) {
+  return bp::make_getter(m, bp::return_value_policy<bp::return_by_value>());
+}
+
+void bind_named() {
+  bp::class_<FrictionModel>("FrictionModel")
+      .add_property("coulomb", vector_field(&FrictionModel::coulomb),
+                    bp::make_setter(&FrictionModel::coulomb))
+      .add_property("viscous", vector_field(&FrictionModel::viscous),
+                    bp::make_setter(&FrictionModel::viscous))
+      .add_property("contact_rows", vector_field(&FrictionModel::contact_rows),
+                    bp::make_setter(&FrictionModel::contact_rows))
+      .add_property("caster_rows", vector_field(&FrictionModel::caster_rows),
+                    bp::make_setter(&FrictionModel::caster_rows))
+      .def_readwrite("rolling_resistance", &FrictionModel::rolling_resistance)
+      .def_readwrite("wheel_radius", &FrictionModel::wheel_radius);
+  bp::class_<ControllerOptions>("ControllerOptions")
+      .def_readwrite("frame_id", &ControllerOptions::frame_id)
+      .def_readwrite("whole_body", &ControllerOptions::whole_body)
+      .def_readwrite("angular", &ControllerOptions::angular)
+      .def_readwrite("posture", &ControllerOptions::posture)
+      .def_readwrite("friction_feedforward", &ControllerOptions::friction_feedforward)
+      .def_readwrite("wheel_radius", &ControllerOptions::wheel_radius)
+      .def_readwrite("half_track", &ControllerOptions::half_track)
+      .def_readwrite("wheel_gain", &ControllerOptions::wheel_gain)
+      .def_readwrite("friction_velocity", &ControllerOptions::friction_velocity)
+      .def_readwrite("damping2", &ControllerOptions::damping2);
+  bp::class_<Terms>("Terms", bp::init<const MatrixXd&, const FrictionModel&>())
+      .def("mass", &Terms::mass)
+      .def("bias", &Terms::bias)
+      .def("gravity", &Terms::gravity)
+      .def("jacobian", &Terms::jacobian)
+      .def("jdot_nu", &Terms::jdot_nu)
+      .def("friction", &Terms::friction)
+      .def("rolling", &Terms::rolling)
+      .def("contact_loads", &Terms::contact_loads);
+}
+
 BOOST_PYTHON_MODULE(_kernel) {
   eigenpy::enableEigenPy();
   bp::scope().attr("PINOCCHIO_VERSION") = PINOCCHIO_VERSION;
@@ -521,12 +753,16 @@ BOOST_PYTHON_MODULE(_kernel) {
       .def("rk4", &Plant::rk4)
       .def("euler", &Plant::euler)
       .def("accel", &Plant::accel_only);
+  bind_named();
   bp::class_<Controller>("Controller",
                          bp::init<const MatrixXd&, const MatrixXd&, const VectorXd&,
-                                  const VectorXd&, const VectorXd&, const VectorXd&,
-                                  const MatrixXd&, const MatrixXd&, const VectorXd&,
-                                  const VectorXd&, const VectorXd&>())
-      .def("command", &Controller::command);
+                                  const VectorXd&, const VectorXd&, const ControllerOptions&,
+                                  const FrictionModel&>())
+      .def("command", &Controller::command)
+      .def("target_layout", target_layout)
+      .staticmethod("target_layout")
+      .def("output_layout", output_layout)
+      .staticmethod("output_layout");
   bp::def("frame_placements", frame_placements);
   bp::class_<InverseDynamics>("InverseDynamics", bp::init<const MatrixXd&>())
       .def("rnea", &InverseDynamics::rnea);

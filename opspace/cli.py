@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
 import sys
 from pathlib import Path
 
@@ -375,14 +376,23 @@ def _cmd_limits(args):
     bad = [v for v in views if v not in ("side", "top")]
     if bad:
         raise ConfigError(f"--views: {bad[0]!r} is not a view (side, top)")
+    executor = None
+    if any(x is not None for x in (args.workers, args.cluster, args.local_cluster)):
+        from .limits import evaluate_map_chunk
+        from .sweep import make_executor
+        executor = make_executor(args.workers, args.cluster, args.local_cluster,
+                                 function=evaluate_map_chunk)
     progress = _Progress(not args.quiet and sys.stderr.isatty())
     try:
         study = limits_study(robot, views=views, points=args.points, posture=args.posture,
                              stopping_length=args.stopping_length,
-                             reaction_time=args.reaction_time, progress=progress, **options)
+                             reaction_time=args.reaction_time, progress=progress,
+                             executor=executor, **options)
         paths = write_limits_report(study, robot, out)
     finally:
         progress.close()
+        if executor is not None:
+            executor.close()
     print(f"{study.status.upper()}: motion limits of {study.robot} ({study.drive})")
     for k, name in enumerate(study.poses.names):
         vals = ", ".join(f"{n.replace('_acceleration', '')} {study.poses.values[n][k]:.3g} "
@@ -507,6 +517,12 @@ def build_parser():
     p.add_argument("--views", default="side,top", help="maps: side, top or both (side,top)")
     p.add_argument("--posture", help="named pose the maps' redundancy starts from "
                    "(default: the arm at zero)")
+    run_on = p.add_mutually_exclusive_group()
+    run_on.add_argument("--workers", metavar="N", type=int,
+                        help="compute the maps on N local processes (the sweep's executor)")
+    run_on.add_argument("--cluster", metavar="ADDRESS", help="... on a Dask scheduler")
+    run_on.add_argument("--local-cluster", metavar="N", type=int,
+                        help="... on a Dask LocalCluster of N workers")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_limits)
     # ---------------------------------------------------------- opspace contact
@@ -592,11 +608,21 @@ def main(argv=None):
     try:
         return args.func(args)
     except (ConfigError, ModelError) as exc:
-        print(f"opspace: error: {exc}", file=sys.stderr)
+        print(f"opspace: error: {_one_line(exc)}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("opspace: interrupted", file=sys.stderr)
         return 130
+    except Exception as exc:   # a defect of opspace, not of the input: still one line
+        if os.environ.get("OPSPACE_TRACEBACK"):
+            raise
+        print(f"opspace: internal error: {type(exc).__name__}: {_one_line(exc)} (a defect of "
+              f"opspace: please report it; OPSPACE_TRACEBACK=1 shows where)", file=sys.stderr)
+        return 3
+
+
+def _one_line(exc):
+    return " ".join(str(exc).split()) or type(exc).__name__
 
 
 if __name__ == "__main__":

@@ -223,6 +223,31 @@ def test_cli_workers_0_is_refused_before_the_base_design(tmp_path, monkeypatch):
                                        "from 1 to 1024, got 0\n")
 
 
+def test_cli_an_unexpected_failure_is_one_line_exit_3(monkeypatch):
+    import opspace.cli
+
+    def boom(args):
+        raise TypeError("unexpected\n  second line")
+
+    monkeypatch.setattr(opspace.cli, "_cmd_check", boom)
+    code, out, err = cli(["check"])
+    assert (code, out) == (3, "")
+    assert err == ("opspace: internal error: TypeError: unexpected second line (a defect of "
+                   "opspace: please report it; OPSPACE_TRACEBACK=1 shows where)\n")
+    monkeypatch.setenv("OPSPACE_TRACEBACK", "1")
+    with pytest.raises(TypeError):
+        cli(["check"])
+
+
+def test_cli_a_read_only_output_place(tmp_path):
+    # /proc refuses new files to everybody (root included, unlike permission bits)
+    if not Path("/proc/self").is_dir():
+        pytest.skip("needs /proc")
+    code, out, err = cli(["size", "-o", "/proc/opspace-report", "--no-search", "-q"])
+    assert (code, out) == (2, "")
+    assert err.startswith("opspace: error: -o /proc/opspace-report: cannot write in /proc (")
+
+
 # ---------------------------------------------------------------- 7. sweep specifications
 SMALL = """[sweep]
 name = "small"

@@ -144,3 +144,21 @@ def test_cli_limits_subprocess_one_line(tmp_path):
     res = run_cli_module("limits", str(DEMO), "-o", str(tmp_path / "o"), "--friction", "0")
     assert res.returncode == 2 and len(res.stderr.strip().splitlines()) == 1, res.stderr
     assert not (tmp_path / "o").exists()
+
+
+def test_map_on_the_sweep_executor_equals_the_local_map(demo):
+    # the same map computed in chunks on local worker processes (the sweep's
+    # executor) is the map computed here, cell for cell
+    from opspace.limits import evaluate_map_chunk
+    from opspace.sweep import make_executor
+    kw = dict(points=9, posture="carry", extent=((0.2, 1.0), (-0.5, 0.5)))
+    here = limits_map(demo, "top", **kw)
+    ex = make_executor(2, function=evaluate_map_chunk)
+    try:
+        there = limits_map(demo, "top", executor=ex, **kw)
+    finally:
+        ex.close()
+    assert np.array_equal(here.status, there.status)
+    for k in here.values:
+        np.testing.assert_array_equal(here.values[k], there.values[k])
+        assert np.array_equal(here.limited_by[k], there.limited_by[k])

@@ -39,6 +39,7 @@ torque limit, arm: the URDF effort) and the saturation is reported per call
 from __future__ import annotations
 
 from ._osc import OperationalSpaceController
-from ._targets import BasePlan, CommandInfo, Gains, Target
+from ._targets import BasePlan, CommandInfo, CommandSample, Gains, Target
 
-__all__ = ["BasePlan", "CommandInfo", "Gains", "OperationalSpaceController", "Target"]
+__all__ = ["BasePlan", "CommandInfo", "CommandSample", "Gains", "OperationalSpaceController",
+           "Target"]

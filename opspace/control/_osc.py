@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
 import pinocchio as pin
 from scipy.linalg import lapack
 
+from .. import _compiled
 from .._common import as_vector as _vec
 from ..dynamics import DEFAULT_DAMPING
 from ..dynamics import damping_threshold as _threshold
@@ -17,10 +19,33 @@ from ..dynamics import solve_spd as _solve_spd
 from ..dynamics import solve_task as _solve_task
 from ..dynamics import task_rhs as _task_rhs
 from ..dynamics import task_rows as _rows
-from ..dynamics import task_space, workspace
-from ._targets import _STILL, BasePlan, CommandInfo, Gains, Target, _frozen
+from ..dynamics import friction_model, task_space
+from ._targets import _STILL, BasePlan, CommandInfo, CommandSample, Gains, Target, _frozen
 
 __all__ = ["OperationalSpaceController"]
+
+#: the fields of the compiled command's target, each of its size in this order
+#: when the kernel lays them out contiguously so (`_target_order` checks)
+_TARGET_FIELDS = (("position", 3), ("rotation", 9), ("velocity", 6), ("acceleration", 6),
+                  ("plan_v", 1), ("plan_omega", 1), ("plan_a", 1), ("plan_alpha", 1))
+_EYE3 = np.eye(3)
+
+
+@functools.cache
+def _target_order():
+    """The kernel's target fields as ((name, size), ...) in the order of their
+    offsets when they tile the vector without gaps; None without the kernel."""
+    layout = _compiled.target_layout()
+    if layout is None:
+        return None
+    order = tuple(sorted(layout.items(), key=lambda item: item[1][0]))
+    at, fields = 0, []
+    for name, (offset, size) in order:
+        if offset != at:
+            return ()
+        fields.append((name, size))
+        at += size
+    return tuple(fields)
 
 _LWA = pin.LOCAL_WORLD_ALIGNED
 _WORLD = pin.Convention.WORLD
@@ -66,7 +91,7 @@ class OperationalSpaceController:
     The parameters are fixed at construction (the compiled command holds a
     copy): make a new controller to change gains, limits or options.
     `command` validates its inputs; a simulation's inner loop that has already
-    checked them may call `_command(q, nu, target, plan)` directly.  One
+    checked them calls `fast_command` (a `CommandSample` back).  One
     controller owns a Pinocchio Data and work buffers: do not share it between
     threads.
     """
@@ -157,7 +182,6 @@ class OperationalSpaceController:
 
     def _make_kernel(self, compiled):
         """The compiled command (`_kernel.Controller`) and its output views, or None."""
-        from .. import _compiled
         if not (compiled is None or compiled is True or compiled is False):
             raise ValueError(f"`compiled` must be None, True or False, got {compiled!r}")
         robot = self.robot
@@ -170,31 +194,21 @@ class OperationalSpaceController:
                                "another): use compiled=None")
         if compiled is False or not usable:
             return None
-        from .._kernel import Controller
-        terms = workspace(robot)
-        rows = np.arange(6)[self._rows].astype(float)
-        flags = np.array([self._fid, self._whole_body, self._angular, self.posture is not None,
-                          self.friction_feedforward, robot.rolling_resistance != 0.0], float)
-        scalars = np.array([robot.wheel_radius, robot.half_track, self.wheel_gain,
-                            self.friction_velocity, robot.rolling_resistance,
-                            self.damping ** 2])
-        ctrl = Controller(np.asarray(robot.S, float), self._GG, np.asarray(self._q0, float),
-                          np.asarray(robot.coulomb, float), np.asarray(robot.viscous, float),
-                          self.effort_limit, np.asarray(terms.A_pinv, float),
-                          np.array(terms.caster_rows, float).reshape(-1, 4), rows, flags,
-                          scalars)
-        # the flat output buffer and its views (layout: _kernel.cpp, Controller::command)
+        options = {"frame_id": int(self._fid), "whole_body": self._whole_body,
+                   "angular": self._angular, "posture": self.posture is not None,
+                   "friction_feedforward": self.friction_feedforward,
+                   "wheel_radius": robot.wheel_radius, "half_track": robot.half_track,
+                   "wheel_gain": self.wheel_gain, "friction_velocity": self.friction_velocity,
+                   "damping2": self.damping ** 2}
+        rows = np.arange(6)[self._rows]
+        ctrl = _compiled.kernel_controller(robot.S, self._GG, self._q0, self.effort_limit, rows,
+                                           options, friction_model(robot))
+        # the output buffer and its named views, laid out as the kernel says
         nv, k = robot.nv, self.k
-        sizes = {"Q_sent": nv, "Q": nv, "LB": k * (k + 1), "Jdot_nu": k, "g": k + nv,
-                 "M": nv * nv, "h": nv, "z": 6 + 2 * k, "J": k * nv}
-        out = np.zeros(sum(sizes.values()))
-        views, i = {}, 0
-        for name, n in sizes.items():
-            views[name] = out[i:i + n]
-            i += n
-        views["LB"] = views["LB"].reshape(k, k + 1)
-        views["M"] = views["M"].reshape(nv, nv)
-        views["J"] = views["J"].reshape(k, nv)
+        layout = _compiled.output_layout(nv, k)
+        out = np.zeros(sum(r * c for _, _, r, c in layout))
+        views = {name: (out[o:o + r] if c == 1 else out[o:o + r * c].reshape(r, c))
+                 for name, o, r, c in layout}
         g = views["g"]
         info = (views["Q_sent"], views["Q"], views["LB"], views["Jdot_nu"], g[:k], g[k:], False,
                 views["J"], views["z"])
@@ -205,12 +219,37 @@ class OperationalSpaceController:
 
     @staticmethod
     def pack(target, plan=None):
-        """The (28,) vector the compiled command reads: [p_d, R_d (row-major),
-        v_d, a_d, plan v, ω, a, α] (R_d = I when the target has none)."""
+        """The target and base plan as the compiled command reads them (one
+        vector laid out as the kernel says, `pack_many`); None without the kernel."""
         plan = _STILL if plan is None else plan
-        R = np.eye(3) if target.rotation is None else target.rotation
-        return np.concatenate((target.position, R.ravel(), target.velocity,
-                               target.acceleration, (plan.v, plan.omega, plan.a, plan.alpha)))
+        R = _EYE3 if target.rotation is None else target.rotation
+        if _target_order() == _TARGET_FIELDS:      # the kernel's order: one concatenation
+            return np.concatenate((target.position, R.ravel(), target.velocity,
+                                   target.acceleration, (plan.v, plan.omega, plan.a, plan.alpha)))
+        x = OperationalSpaceController.pack_many(
+            target.position[None], R[None], target.velocity[None], target.acceleration[None],
+            np.array([[plan.v, plan.omega, plan.a, plan.alpha]]))
+        return None if x is None else x[0]
+
+    @staticmethod
+    def pack_many(positions, rotations, velocities, accelerations, plans):
+        """n targets and base plans as rows (n, ·) of the compiled command's input,
+        each field where the kernel's layout puts it (`_compiled.target_layout`):
+        positions (n, 3) m, rotations (n, 3, 3), velocities and accelerations
+        (n, 6) [linear; angular], plans (n, 4) = (v, ω, a, α) of the base.
+        None without the kernel."""
+        layout = _compiled.target_layout()
+        if layout is None:
+            return None
+        n = len(positions)
+        x = np.empty((n, sum(size for _, size in layout.values())))
+        fields = {"position": positions, "rotation": np.reshape(rotations, (n, 9)),
+                  "velocity": velocities, "acceleration": accelerations,
+                  "plan_v": plans[:, 0:1], "plan_omega": plans[:, 1:2], "plan_a": plans[:, 2:3],
+                  "plan_alpha": plans[:, 3:4]}
+        for name, (offset, size) in layout.items():
+            x[:, offset:offset + size] = fields[name]
+        return x
 
     @staticmethod
     def _gains(name, gains, size, stiffness):
@@ -259,27 +298,39 @@ class OperationalSpaceController:
     def _command(self, q, nu, target, plan):
         """The unvalidated fast path of `command`: compiled when available."""
         if self._kernel is not None:
-            return self._command_packed(q, nu, self.pack(target, plan))
+            return self._command_packed(q, nu, self.pack(target, plan), target, plan)
         return self._command_numpy(q, nu, target, plan)
 
-    def _command_packed(self, q, nu, x):
-        """The compiled command at (q, ν) for a packed target x (`pack`); a
-        simulation's inner loop.  The returned Q is a view of a buffer that the
-        next call overwrites.  Near a singularity (or without the kernel) the
-        NumPy path runs instead."""
+    def _command_packed(self, q, nu, x, target, plan):
+        """The compiled command at (q, ν) for the target and plan packed in x
+        (`pack`).  The returned Q is a view of a buffer that the next call
+        overwrites.  Near a singularity the NumPy path runs instead."""
         kernel = self._kernel
-        if kernel is None or kernel[0](kernel[1], kernel[2], q, nu, x, kernel[3]):
-            return self._command_numpy(q, nu, *self._unpack(x))
+        if kernel[0](kernel[1], kernel[2], q, nu, x, kernel[3]):
+            return self._command_numpy(q, nu, target, plan)
         self._info, self._Mh, self._error = kernel[4], kernel[5], kernel[6]
-        self._target_position = x[:3]
+        self._target_position = target.position
         if self._error is None:
             self._error = kernel[4][8][:6][self._rows]
         return kernel[4][0]
 
-    def _unpack(self, x):
-        target = Target.trusted(x[:3], x[3:12].reshape(3, 3) if self._angular else None,
-                                x[12:18], x[18:24])
-        return target, BasePlan(*x[24:28].tolist())
+    def fast_command(self, q, nu, target, plan, packed=None):
+        """The command without validation, as a named record (a simulator's inner
+        loop, whose inputs are checked once beforehand).
+
+        q (nq,), ν (nv,) float arrays; target a `Target` (with a rotation when
+        the task has angular rows); plan a `BasePlan`; packed: the same target
+        and plan from `pack` / `pack_many` (the compiled command reads it; None:
+        packed here when the kernel runs).  Returns a `CommandSample` whose
+        arrays the next call overwrites.
+        """
+        if self._kernel is not None:
+            Q = self._command_packed(q, nu, self.pack(target, plan) if packed is None else packed,
+                                     target, plan)
+        else:
+            Q = self._command_numpy(q, nu, target, plan)
+        M, h = self._Mh
+        return CommandSample(Q, self._info[1], self._error, self._target_position, M, h)
 
     def _command_numpy(self, q, nu, target, plan):
         """The command in NumPy (the reference of the compiled path).

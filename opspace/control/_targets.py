@@ -4,6 +4,7 @@ command did (`CommandInfo`), with their validators."""
 from __future__ import annotations
 
 import math
+from typing import NamedTuple
 from dataclasses import dataclass
 
 import numpy as np
@@ -11,7 +12,7 @@ import numpy as np
 from .._common import as_vector as _vec
 from ..dynamics import resolve_frame as _frame
 
-__all__ = ["BasePlan", "CommandInfo", "Gains", "Target"]
+__all__ = ["BasePlan", "CommandInfo", "CommandSample", "Gains", "Target"]
 
 #: tolerance on RᵀR = I and det R = 1 for a target rotation
 ROTATION_TOL = 1e-6
@@ -195,6 +196,27 @@ class BasePlan:
         """From a sampled base motion (`TimelineSample` or `BaseMotion`) at `index`."""
         return cls(*(float(np.asarray(getattr(sample, n))[index])
                      for n in ("v", "omega", "a", "alpha")))
+
+
+class CommandSample(NamedTuple):
+    """What one fast-path command did (`OperationalSpaceController.fast_command`),
+    for a simulator's inner loop.  The arrays are the controller's buffers: valid
+    until its next call (copy what you keep).
+
+    Q : (nv,)          efforts sent (after the limits), N·m or N
+    Q_demand : (nv,)   efforts before the limits
+    error : (k,)       task error e (m, rad), world axes
+    target_position : (3,)   p_d of the call, m, world
+    M : (nv, nv)       reduced mass matrix at (q, ν) (`opspace.dynamics.mass_matrix`)
+    h : (nv,)          c + g at (q, ν), N·m or N (`opspace.dynamics.bias_forces`)
+    """
+
+    Q: np.ndarray
+    Q_demand: np.ndarray
+    error: np.ndarray
+    target_position: np.ndarray
+    M: np.ndarray
+    h: np.ndarray
 
 
 @dataclass(frozen=True, eq=False)

@@ -25,6 +25,7 @@ from ._task_space import _solve_task as solve_task
 from ._task_space import _task_rhs as task_rhs
 from ._task_space import _threshold as damping_threshold
 from ._terms import caster_forces, static_loads_batch, wheel_rolling_torques
+from ._terms import compiled_terms, friction_model
 from ._terms import (RollingLoads, Workspace, batch_threads, bias_forces, compiled_plant,
                      coulomb_viscous, frame_terms, friction_batch, friction_forces,
                      gravity_forces, mass_and_jacobian, mass_matrix, rolling_loads,
@@ -45,6 +46,7 @@ __all__ = [
     "cartesian_task_space",
     "caster_forces",
     "compiled_plant",
+    "compiled_terms",
     "coulomb_viscous",
     "damping_threshold",
     "drive_inertia",
@@ -54,6 +56,7 @@ __all__ = [
     "friction",
     "friction_batch",
     "friction_forces",
+    "friction_model",
     "gravity_forces",
     "inertia_ellipsoid",
     "inverse_dynamics",

@@ -54,8 +54,10 @@ __all__ = [
     "caster_forces",
     "compiled_inverse_dynamics",
     "compiled_plant",
+    "compiled_terms",
     "coulomb_viscous",
     "frame_terms",
+    "friction_model",
     "friction_batch",
     "friction_forces",
     "gravity_forces",
@@ -366,6 +368,25 @@ def compiled_inverse_dynamics(robot):
     if ws.inverse_dynamics is None:
         ws.inverse_dynamics = _compiled.inverse_dynamics_kernel(robot.S)
     return ws.inverse_dynamics
+
+
+def friction_model(robot):
+    """The friction model's named arrays, as the compiled kernel takes them:
+    coulomb, viscous (nv,); contact_rows A⁺ (k, 3); caster_rows (k − 2, 4);
+    rolling_resistance C_rr; wheel_radius r, m."""
+    ws = workspace(robot)
+    return {"coulomb": robot.coulomb, "viscous": robot.viscous, "contact_rows": ws.A_pinv,
+            "caster_rows": np.array(ws.caster_rows, dtype=float).reshape(-1, 4),
+            "rolling_resistance": robot.rolling_resistance, "wheel_radius": robot.wheel_radius}
+
+
+def compiled_terms(robot):
+    """The compiled twin of this module's terms (`opspace._compiled.kernel_terms`):
+    methods mass, bias, gravity, jacobian, jdot_nu, friction, rolling,
+    contact_loads taking (model, data, q, ...); None if unavailable."""
+    if robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows
+        return None
+    return _compiled.kernel_terms(robot.S, friction_model(robot))
 
 
 def compiled_plant(robot, locked, friction):

@@ -13,9 +13,9 @@ here?  Built on the public dynamics (`inverse_dynamics_batch`) and stability
 
 from ._limits import (BatchLimits, Limit, MotionLimits, NAMES, UNITS, motion_limits,
                       motion_limits_batch)
-from ._maps import (CAUTIONS, RULE, LimitsMap, LimitsStudy, PoseLimits, limits_map,
-                    limits_study, pose_limits, protective_speed, reach_positions)
+from ._maps import (CAUTIONS, RULE, LimitsMap, LimitsStudy, PoseLimits, evaluate_map_chunk,
+                    limits_map, limits_study, pose_limits, protective_speed, reach_positions)
 
 __all__ = ["BatchLimits", "CAUTIONS", "Limit", "LimitsMap", "LimitsStudy", "MotionLimits", "NAMES", "PoseLimits", "RULE",
-           "UNITS", "limits_map", "limits_study", "motion_limits", "motion_limits_batch", "pose_limits",
+           "UNITS", "evaluate_map_chunk", "limits_map", "limits_study", "motion_limits", "motion_limits_batch", "pose_limits",
            "protective_speed", "reach_positions"]

@@ -42,8 +42,8 @@ import pinocchio as pin
 from ..errors import ConfigError
 from ._limits import NAMES, motion_limits, motion_limits_batch
 
-__all__ = ["LimitsMap", "PoseLimits", "limits_map", "pose_limits", "protective_speed",
-           "reach_positions"]
+__all__ = ["LimitsMap", "PoseLimits", "evaluate_map_chunk", "limits_map", "pose_limits",
+           "protective_speed", "reach_positions"]
 
 _TOL = 1e-4        # m, tool position reached
 _STEPS = 200
@@ -196,7 +196,7 @@ def _grid_targets(view, u, v, level):
 
 
 def limits_map(robot, view="side", *, points=21, level=None, extent=None, posture=None,
-               progress=None, **options):
+               progress=None, executor=None, **options):
     """Motion limits over a grid of tool positions (see the module docstring).
 
     Parameters
@@ -209,6 +209,9 @@ def limits_map(robot, view="side", *, points=21, level=None, extent=None, postur
     posture : arm posture q₀ (n_arm,) or a pose name; default: the arm at zero,
               clipped to its limits
     progress : callable(done, total) or None
+    executor : None (this process), or an executor of `opspace.sweep.make_executor`
+               made with ``function=evaluate_map_chunk``: the grid is cut into chunks
+               of 64 tool positions computed on its workers (local processes, Dask)
     **options : passed to `motion_limits_batch` (payload, friction, grade, ...)
 
     Returns
@@ -229,15 +232,85 @@ def limits_map(robot, view="side", *, points=21, level=None, extent=None, postur
     u = np.linspace(*extent[0], int(points))
     v = np.linspace(*extent[1], int(points))
     targets, axes = _grid_targets(view, u, v, float(level))
-    arm = reach_positions(robot, targets, q0, progress=progress)
-    arm[targets[:, 2] < 0.0] = np.nan           # in the floor
-    values, by, status = _limits_at(robot, arm, options)
+    if executor is None:
+        arm, values, by, status = _map_chunk(robot, targets, q0, options, progress)
+    else:
+        arm, values, by, status = _run_chunks(robot, targets, q0, options, executor, progress)
     shape = (len(v), len(u))
     return LimitsMap(view=view, axes=axes, u=u, v=v, level=float(level),
                      values={k: x.reshape(shape) for k, x in values.items()},
                      limited_by={k: x.reshape(shape) for k, x in by.items()},
                      status=status.reshape(shape), arm=arm.reshape(shape + (robot.n_arm,)),
                      rule=RULE, options=dict(options))
+
+
+def _map_chunk(robot, targets, q0, options, progress=None):
+    """Arm, values, limited_by, status at tool positions (n, 3) (this process)."""
+    arm = reach_positions(robot, targets, q0, progress=progress)
+    arm[targets[:, 2] < 0.0] = np.nan           # in the floor
+    values, by, status = _limits_at(robot, arm, options)
+    return arm, values, by, status
+
+
+# --------------------------------------------------------------------------- executors
+
+_CHUNK = 64            # tool positions per task on an executor
+
+
+@dataclass(frozen=True)
+class _Chunk:
+    id: int
+    targets: np.ndarray
+
+
+@dataclass(frozen=True)
+class _MapContext:
+    path: str
+    posture: np.ndarray
+    options: dict
+
+
+_WORKER_ROBOTS = {}
+
+
+def evaluate_map_chunk(context, task):
+    """One chunk of a map, on a worker of the sweep's executors: its record."""
+    try:
+        robot = _WORKER_ROBOTS.get(context.path)
+        if robot is None:
+            from ..model import load_robot
+            robot = _WORKER_ROBOTS[context.path] = load_robot(context.path)
+        arm, values, by, status = _map_chunk(robot, task.targets, context.posture,
+                                             context.options)
+    except Exception as exc:   # reported to the caller, which stops with one line
+        return {"id": task.id, "status": "error", "message": f"{type(exc).__name__}: {exc}"}
+    return {"id": task.id, "status": "ok", "arm": arm, "values": values, "limited_by": by,
+            "map_status": status}
+
+
+def _run_chunks(robot, targets, q0, options, executor, progress):
+    """`_map_chunk` over chunks of `targets` on an executor (see `limits_map`)."""
+    from ..errors import ModelError
+
+    tasks = [_Chunk(i, targets[k:k + _CHUNK])
+             for i, k in enumerate(range(0, len(targets), _CHUNK))]
+    context = _MapContext(str(robot.description.path), q0, dict(options))
+    got = {}
+
+    def on_record(rec):
+        if rec.get("status") != "ok":
+            raise ModelError(f"limits map: a worker failed on tool positions "
+                             f"{rec.get('id', 0) * _CHUNK}..: {rec.get('message')}")
+        got[rec["id"]] = rec
+        if progress is not None:
+            progress(min(len(got) * _CHUNK, len(targets)), len(targets))
+
+    executor.run(context, tasks, on_record, max_retries=2)
+    recs = [got[t.id] for t in tasks]
+    arm = np.concatenate([r["arm"] for r in recs])
+    values = {k: np.concatenate([r["values"][k] for r in recs]) for k in NAMES}
+    by = {k: np.concatenate([r["limited_by"][k] for r in recs]) for k in NAMES}
+    return arm, values, by, np.concatenate([r["map_status"] for r in recs])
 
 
 def _posture(robot, posture):
@@ -344,12 +417,11 @@ class LimitsStudy:
 
 
 def limits_study(robot, *, views=("side", "top"), points=21, posture=None,
-                 stopping_length=None, reaction_time=0.0, progress=None, map_runner=None,
+                 stopping_length=None, reaction_time=0.0, progress=None, executor=None,
                  **options):
     """Named poses and maps (see `limits_map`, `pose_limits`) in one result.
 
-    map_runner : callable(robot, view, points, posture, options, progress) -> LimitsMap,
-                 to compute maps elsewhere (e.g. on the sweep's executors); default local.
+    executor : None, or an executor for the maps (see `limits_map`).
     """
     if stopping_length is not None:
         protective_speed(1.0, stopping_length, reaction_time)      # validates both
@@ -361,11 +433,8 @@ def limits_study(robot, *, views=("side", "top"), points=21, posture=None,
     for view in views:
         report = None if progress is None else (
             lambda d, t, view=view: progress(f"{view} view", d, t))
-        if map_runner is None:
-            maps.append(limits_map(robot, view, points=points, posture=posture,
-                                   progress=report, **options))
-        else:
-            maps.append(map_runner(robot, view, points, posture, options, report))
+        maps.append(limits_map(robot, view, points=points, posture=posture, progress=report,
+                               executor=executor, **options))
     return LimitsStudy(robot=robot.name, options=dict(options), poses=poses, maps=maps,
                        stopping_length=stopping_length, reaction_time=float(reaction_time),
                        top_speed=float(robot.top_speed), policy=probe.policy.to_dict(),

@@ -102,8 +102,10 @@ class ScenarioRun:
         # the same, packed for the compiled command (`OperationalSpaceController.pack`)
         self._rate, self._last = 1.0 / sc.control_period, len(self.t_ctrl) - 1
         self._same_robot = self.controller_robot is self.robot
-        self._packed = np.column_stack([tool.p, tool.R.reshape(-1, 9), vel, acc, b["v"],
-                                        b["omega"], b["a"], b["alpha"]])
+        self._packed = self.controller.pack_many(
+            tool.p, tool.R, vel, acc, np.column_stack([b["v"], b["omega"], b["a"], b["alpha"]]))
+        if self._packed is None:
+            self._packed = [None] * len(self._targets)
         self.events = []
         if sc.pick is not None:
             payload = robot.description.payload if sc.payload == "rated" else sc.payload
@@ -120,19 +122,14 @@ class ScenarioRun:
     def control(self, t, q, nu):
         """The controller sampled at t: (Q, step info).  Targets and plans come
         from the precomputed, validated paths, so the unchecked fast paths are
-        used: the compiled command on the packed targets (`_command_packed`),
-        or `_command_numpy` on `Target.trusted` ones without the kernel."""
+        used (`OperationalSpaceController.fast_command`, on the targets packed
+        once for the compiled command)."""
         i = min(int(t * self._rate + 0.5), self._last)
-        c = self.controller
-        if c._kernel is not None:
-            Q = c._command_packed(q, nu, self._packed[i])
-        else:
-            Q = c._command_numpy(q, nu, self._targets[i], self._plans[i])
-        Q_demand = c._info[1]
+        s = self.controller.fast_command(q, nu, self._targets[i], self._plans[i], self._packed[i])
         # with a perfect model the NumPy plant's first RK4 stage reuses the controller's M, c + g
-        Mh = c._Mh if self._same_robot else None
+        Mh = (s.M, s.h) if self._same_robot else None
         # saturated: clipped, |Q_demand| > limit  (Q = clip(Q_demand) differs from it)
-        return Q, _StepInfo(Q_demand, Q != Q_demand, c._error, self._packed[i, :3], Mh)
+        return s.Q, _StepInfo(s.Q_demand, s.Q != s.Q_demand, s.error, s.target_position, Mh)
 
     def run(self, *, integrator=None, progress=None, stability=True, compiled=None):
         """SimulationResult of the scenario (`compiled`: see `simulate`)."""

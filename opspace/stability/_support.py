@@ -397,7 +397,12 @@ def _solve_all(A, bp, Fb, sl, B, e, supported, F, U):
     # the linear piece each element sits on at a typical instant
     j0 = idx[len(idx) // 2]
     u0 = np.linalg.solve((A * sl[:, 0]) @ A.T, B[j0])
-    u0, _ = _newton(A, bp, Fb, sl, B[j0], e[j0], u0)
+    F0, U0 = np.full((1, A.shape[1]), np.nan), np.full((1, 3), np.nan)
+    if _pieces_batch(A, bp, Fb, sl, B[j0:j0 + 1], e[j0:j0 + 1], u0[None].copy(), F0, U0,
+                     np.zeros(1, dtype=int))[0]:
+        u0 = U0[0]                                  # exact on its pieces, no line search
+    else:
+        u0, _ = _newton(A, bp, Fb, sl, B[j0], e[j0], u0)
     _, _, seg = _force(bp, Fb, sl, (A.T @ u0 - e[j0])[None])
     seg = seg[0]
     rows = np.arange(len(seg))

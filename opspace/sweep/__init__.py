@@ -42,8 +42,8 @@ The sweep file (TOML; SI units, paths relative to the file)::
     min = 0.05
 """
 
-from ._engine import (PointRecord, SweepResult, check_options, evaluate_point, progress_bar,
-                      run_sweep)
+from ._engine import (PointRecord, SweepResult, check_options, evaluate_point, make_executor,
+                      progress_bar, run_sweep)
 from ._pareto import pareto_front
 from ._paths import Figure, parse_figure, parse_path
 from ._spec import Constraint, Parameter, Point, Sweep, latin_hypercube, load_sweep
@@ -60,6 +60,7 @@ __all__ = [
     "evaluate_point",
     "latin_hypercube",
     "load_sweep",
+    "make_executor",
     "pareto_front",
     "parse_figure",
     "parse_path",

@@ -154,11 +154,18 @@ def _executor_options(workers, cluster, local_cluster):
         raise ConfigError("--cluster must be a Dask scheduler address, e.g. tcp://host:8786")
 
 
-def _executor(workers, cluster, local_cluster):
+def make_executor(workers=None, cluster=None, local_cluster=None, *, function=None):
+    """The executor of a run: local processes (`workers`, default every core) or
+    Dask (`cluster` address, or a `local_cluster` of N workers), running
+    `function(context, task) -> record` (default: a sweep's design point)."""
+    return _executor(workers, cluster, local_cluster, function)
+
+
+def _executor(workers, cluster, local_cluster, function=None):
     _executor_options(workers, cluster, local_cluster)
     if cluster is not None or local_cluster is not None:
-        return Dask(cluster=cluster, local_cluster=local_cluster)
-    return Processes((os.cpu_count() or 1) if workers is None else workers)
+        return Dask(cluster=cluster, local_cluster=local_cluster, function=function)
+    return Processes((os.cpu_count() or 1) if workers is None else workers, function=function)
 
 
 def _base(sweep):

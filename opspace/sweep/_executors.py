@@ -74,9 +74,10 @@ def _context(multiprocessing):
 class Processes:
     """Local worker processes (a new pool after a worker is lost)."""
 
-    def __init__(self, workers):
+    def __init__(self, workers, function=None):
         import multiprocessing
 
+        self.function = function or evaluate_point     # function(context, task) -> record
         self.workers = workers
         self.description = f"{workers} local process{'es' if workers != 1 else ''}"
         self._mp = _context(multiprocessing)
@@ -97,7 +98,7 @@ class Processes:
         return 2 * self.workers
 
     def submit(self, context, task, attempt):
-        return self._pool.submit(evaluate_point, context, task)
+        return self._pool.submit(self.function, context, task)
 
     def wait(self, futures, timeout):
         done, _ = cf.wait(futures, timeout=timeout, return_when=cf.FIRST_COMPLETED)
@@ -120,17 +121,22 @@ class Processes:
             self._pool.shutdown(wait=True, cancel_futures=True)
             self._pool = None
 
+    def run(self, context, tasks, on_record, *, max_retries=2):
+        """`drive` on this executor: every task through `function`, records to `on_record`."""
+        return drive(self, context, tasks, on_record, max_retries=max_retries)
+
 
 class Dask:
     """A Dask distributed client (given, at an address, or a LocalCluster)."""
 
-    def __init__(self, cluster=None, local_cluster=None):
+    def __init__(self, cluster=None, local_cluster=None, function=None):
         try:
             import distributed
         except ImportError:
             raise ConfigError("the Dask executor needs dask.distributed, which is not "
                               "installed: pip install 'opspace[cluster]'") from None
         self._distributed = distributed
+        self.function = function or evaluate_point     # function(context, task) -> record
         self._own_client = self._own_cluster = None
         if local_cluster is not None:
             import logging
@@ -173,7 +179,7 @@ class Dask:
         self.broken = False
 
     def submit(self, context, task, attempt):
-        return self.client.submit(evaluate_point, context, task, pure=False,
+        return self.client.submit(self.function, context, task, pure=False,
                                   key=f"opspace-sweep-{self._token}-{task.id}-{attempt}")
 
     def wait(self, futures, timeout):
@@ -209,6 +215,10 @@ class Dask:
             self._own_client.close()
         if self._own_cluster is not None:
             self._own_cluster.close()
+
+    def run(self, context, tasks, on_record, *, max_retries=2):
+        """`drive` on this executor: every task through `function`, records to `on_record`."""
+        return drive(self, context, tasks, on_record, max_retries=max_retries)
 
 
 def drive(executor, context, tasks, on_record, *, max_retries):
