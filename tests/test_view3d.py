@@ -191,6 +191,14 @@ def test_meshes_load_and_missing_or_bad_shapes_fall_back_with_a_note(tmp_path):
     assert F.size == 12
     V = np.frombuffer(base64.b64decode(mesh[2]["positions"]), np.float32).reshape(-1, 3)
     np.testing.assert_allclose(V.max(axis=0) - V.min(axis=0), [0.1, 0.2, 0.3], atol=1e-6)
+    # COLLADA 1.4.1 <asset><unit meter>: the same box written in millimetres
+    from opspace.report._meshes import load_mesh
+    mm = tmp_path / "mm.dae"
+    trimesh.creation.box(extents=(100, 200, 300)).export(tmp_path / "plain.dae")
+    mm.write_text((tmp_path / "plain.dae").read_text().replace(
+        "<asset>", '<asset><unit meter="0.001" name="millimetre"/>'))
+    V = load_mesh(mm)[0]
+    np.testing.assert_allclose(V.max(axis=0) - V.min(axis=0), [0.1, 0.2, 0.3], atol=1e-6)
 
 
 def _page(tmp_path, scene, name):
@@ -241,3 +249,19 @@ def test_a_mimic_finger_is_drawn_where_its_leader_puts_it(tmp_path):
     for link, y in (("fa", 0.02 + qa), ("fb", -0.02 + K * qa + O)):
         pose = scene.poses[0, _part(scene, f"{link} (visual box)")].astype(float)
         np.testing.assert_allclose(pose[:3], palm + R @ [0.05, y, 0.0], atol=1e-6)
+
+
+def test_a_fine_mesh_is_simplified_and_the_page_says_so(tmp_path):
+    trimesh = pytest.importorskip("trimesh")
+    from opspace.report._meshes import load_mesh
+
+    fine = trimesh.creation.icosphere(subdivisions=5, radius=0.1)      # 20480 triangles
+    fine.export(tmp_path / "ball.stl")
+    V, F, _, note = load_mesh(tmp_path / "ball.stl", max_triangles=6000)
+    assert len(F) == 12 and "bounding box" in note       # its hull is as fine: a box
+    np.testing.assert_allclose(V.max(axis=0) - V.min(axis=0), [0.2] * 3, rtol=1e-3)
+    cup = trimesh.creation.annulus(r_min=0.05, r_max=0.1, height=0.05, sections=1000)
+    cup.export(tmp_path / "ring.stl")                     # not convex: the hull is coarser
+    V, F, _, note = load_mesh(tmp_path / "ring.stl", max_triangles=6000)
+    assert "convex hull" in note and len(F) <= 6000
+    assert np.linalg.norm(V[:, :2], axis=1).max() == pytest.approx(0.1, rel=1e-3)

@@ -31,6 +31,13 @@ _TARGET_FIELDS = (("position", 3), ("rotation", 9), ("velocity", 6), ("accelerat
 _EYE3 = np.eye(3)
 
 
+def _concatenated(target, plan):
+    """The command input in the order of `_TARGET_FIELDS` (one concatenation)."""
+    R = _EYE3 if target.rotation is None else target.rotation
+    return np.concatenate((target.position, R.ravel(), target.velocity, target.acceleration,
+                           (plan.v, plan.omega, plan.a, plan.alpha)))
+
+
 @functools.cache
 def _target_order():
     """The kernel's target fields as ((name, size), ...) in the order of their
@@ -179,6 +186,8 @@ class OperationalSpaceController:
         self._q_shape, self._nu_shape = (robot.model.nq,), (robot.nv,)
         self._info = None
         self._kernel = self._make_kernel(compiled)
+        # the packing `command` uses: the concatenation when the kernel's layout is its order
+        self._pack = _concatenated if _target_order() == _TARGET_FIELDS else self.pack
 
     def _make_kernel(self, compiled):
         """The compiled command (`_kernel.Controller`) and its output views, or None."""
@@ -222,10 +231,9 @@ class OperationalSpaceController:
         """The target and base plan as the compiled command reads them (one
         vector laid out as the kernel says, `pack_many`); None without the kernel."""
         plan = _STILL if plan is None else plan
-        R = _EYE3 if target.rotation is None else target.rotation
         if _target_order() == _TARGET_FIELDS:      # the kernel's order: one concatenation
-            return np.concatenate((target.position, R.ravel(), target.velocity,
-                                   target.acceleration, (plan.v, plan.omega, plan.a, plan.alpha)))
+            return _concatenated(target, plan)
+        R = _EYE3 if target.rotation is None else target.rotation
         x = OperationalSpaceController.pack_many(
             target.position[None], R[None], target.velocity[None], target.acceleration[None],
             np.array([[plan.v, plan.omega, plan.a, plan.alpha]]))
@@ -298,7 +306,7 @@ class OperationalSpaceController:
     def _command(self, q, nu, target, plan):
         """The unvalidated fast path of `command`: compiled when available."""
         if self._kernel is not None:
-            return self._command_packed(q, nu, self.pack(target, plan), target, plan)
+            return self._command_packed(q, nu, self._pack(target, plan), target, plan)
         return self._command_numpy(q, nu, target, plan)
 
     def _command_packed(self, q, nu, x, target, plan):
@@ -325,7 +333,7 @@ class OperationalSpaceController:
         arrays the next call overwrites.
         """
         if self._kernel is not None:
-            Q = self._command_packed(q, nu, self.pack(target, plan) if packed is None else packed,
+            Q = self._command_packed(q, nu, self._pack(target, plan) if packed is None else packed,
                                      target, plan)
         else:
             Q = self._command_numpy(q, nu, target, plan)

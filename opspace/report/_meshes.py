@@ -3,17 +3,20 @@
 trimesh is optional (the `view3d` extra): without it, or when a file does
 not load, the caller draws the link another way and the page says why.  A
 mesh with more triangles than the page can carry is replaced by its convex
-hull (SciPy's Qhull through trimesh), and said so.
+hull (SciPy's Qhull through trimesh), or by its bounding box when the hull
+is as fine, and said so.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["MAX_MESH_TRIANGLES", "load_mesh"]
+__all__ = ["MAX_MESH_TRIANGLES", "MAX_PAGE_TRIANGLES", "load_mesh"]
 
 #: triangles one mesh may keep in the page (about 40 bytes each once encoded)
 MAX_MESH_TRIANGLES = 6000
+#: triangles all the meshes of a page may keep (about 2.4 MB)
+MAX_PAGE_TRIANGLES = 60000
 
 
 def load_mesh(path, scale=(1.0, 1.0, 1.0), *, max_triangles=MAX_MESH_TRIANGLES):
@@ -46,11 +49,36 @@ def load_mesh(path, scale=(1.0, 1.0, 1.0), *, max_triangles=MAX_MESH_TRIANGLES):
     note = None
     if len(mesh.faces) > max_triangles:
         n = len(mesh.faces)
-        mesh = mesh.convex_hull
-        note = f"{path.name}: {n} triangles, its convex hull ({len(mesh.faces)}) is drawn"
+        hull = mesh.convex_hull
+        if len(hull.faces) <= max_triangles:
+            mesh = hull
+            note = f"{path.name}: {n} triangles, its convex hull ({len(mesh.faces)}) is drawn"
+        else:   # a fine convex mesh: its hull is as fine
+            mesh = trimesh.creation.box(bounds=mesh.bounds)
+            note = f"{path.name}: {n} triangles, its bounding box is drawn"
     rgba = _main_colour(mesh)
-    vertices = (np.asarray(mesh.vertices, float) * np.asarray(scale, float)).astype(np.float32)
+    scale = np.asarray(scale, float) * _collada_unit(path)
+    vertices = (np.asarray(mesh.vertices, float) * scale).astype(np.float32)
     return vertices, np.asarray(mesh.faces, np.uint32), rgba, note
+
+
+def _collada_unit(path):
+    """Metres per unit of a COLLADA file's <asset><unit meter>, which trimesh
+    leaves to the caller (URDF viewers honour it); 1 for other formats."""
+    if path.suffix.lower() != ".dae":
+        return 1.0
+    import xml.etree.ElementTree as ET
+
+    try:
+        for _, element in ET.iterparse(str(path)):
+            if element.tag.rsplit("}", 1)[-1] == "unit":
+                meter = float(element.get("meter", "1"))
+                return meter if np.isfinite(meter) and meter > 0 else 1.0
+            if element.tag.rsplit("}", 1)[-1] == "asset":
+                break
+    except (ET.ParseError, ValueError, OSError):
+        pass
+    return 1.0
 
 
 def _main_colour(mesh):

@@ -94,6 +94,7 @@ class _Builder:
     def __init__(self):
         self.geometries, self.parts, self.placers, self.notes = [], [], [], []
         self._meshes = {}
+        self.triangles = 0   # kept by the meshes so far
 
     def geometry(self, g):
         self.geometries.append(g)
@@ -106,11 +107,13 @@ class _Builder:
 
     def mesh(self, path, scale):
         """Geometry index of a mesh file (loaded once), or ValueError."""
-        from ._meshes import load_mesh
+        from ._meshes import MAX_MESH_TRIANGLES, MAX_PAGE_TRIANGLES, load_mesh
 
         key = (str(path), tuple(scale))
         if key not in self._meshes:
-            V, F, rgba, note = load_mesh(path, scale)
+            left = max(12, MAX_PAGE_TRIANGLES - self.triangles)
+            V, F, rgba, note = load_mesh(path, scale, max_triangles=min(MAX_MESH_TRIANGLES, left))
+            self.triangles += len(F)
             if note:
                 self.notes.append(note)
             index_type = "uint16" if len(V) < 65536 else "uint32"
