@@ -41,21 +41,24 @@ def available():
     return _module() is not None
 
 
-def kernel_plant(S, free, coulomb, viscous, friction, A_pinv, casters, c_rr, r):
+def kernel_plant(S, locked, Fk, Fs, fv, frictional, lo, hi, qi, A_pinv, casters, c_rr, r):
     """A compiled `Plant` (see _kernel.cpp) from its arrays, or None if unavailable.
 
-    S (nv_pin, nv) reduction map; free (nv,) 1.0 for a moving coordinate, 0.0
-    for one held still; coulomb, viscous (nv,); friction: Coulomb, viscous and
-    rolling resistance on/off; A_pinv (k, 3) static contact-load rows; casters
-    (k − 2, 4) ground-velocity rows; c_rr rolling-resistance coefficient;
-    r wheel radius, m.  `opspace.dynamics` assembles them from a robot.
+    S (nv_pin, nv) reduction map; locked (nv,) 1.0 for a coordinate held still;
+    Fk, Fs, fv (nv,) kinetic, static and viscous friction (zeros: friction off);
+    frictional (nv,) 1.0 for a coordinate that can stick; lo, hi (nv,) position
+    stops and qi (nv,) their index in q (-1: none); A_pinv (k, 3) static
+    contact-load rows; casters (k − 2, 4) ground-velocity rows; c_rr rolling
+    resistance coefficient (0: none); r wheel radius, m.  `opspace.dynamics`
+    assembles them from a robot (`compiled_plant`).
     """
     k = _module()
     if k is None:
         return None
-    return k.Plant(np.asarray(S, float), np.asarray(free, float), np.asarray(coulomb, float),
-                   np.asarray(viscous, float), bool(friction), np.asarray(A_pinv, float),
-                   np.asarray(casters, float).reshape(-1, 4), float(c_rr), float(r))
+    f = np.asarray
+    return k.Plant(f(S, float), f(locked, float), f(Fk, float), f(Fs, float), f(fv, float),
+                   f(frictional, float), f(lo, float), f(hi, float), f(qi, float),
+                   f(A_pinv, float), f(casters, float).reshape(-1, 4), float(c_rr), float(r))
 
 
 def _friction_model(k, friction):

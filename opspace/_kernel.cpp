@@ -5,8 +5,10 @@
 // compare this with to round-off; opspace.simulate's docstring has the model:
 //
 //   M ν̇ = Q − h − f,   M = Sᵀ M_full(q) S,   h = Sᵀ nle(q, S ν)
-//   f = f_C sign(ν) + f_v ν + f_rr(ν)     (f_rr: rolling resistance with the
-//                                          static loads frozen at the step start)
+//   f = F_k s + f_v ν + f_rr(ν)   (Karnopp stick-slip: s the friction direction
+//                                  frozen at the step start, stuck coordinates
+//                                  held; f_rr: rolling resistance with the static
+//                                  loads frozen at the step start)
 //
 // S is the constant reduction map of the differential-drive base (the planar
 // root's velocity is in the chassis frame).  Locked coordinates keep ν = 0 and
@@ -34,6 +36,7 @@
 #include <boost/python.hpp>
 
 #include <cmath>
+#include <limits>
 #include <stdexcept>
 #include <vector>
 
@@ -85,8 +88,19 @@ class Rolling {
 
   // (f_r, f_l) on the wheel coordinates (left-hand side) at wheel rates w0, w1
   void efforts(double w0, double w1, double& f0, double& f1) const {
-    f0 = k0_ * sign(w0);
-    f1 = k1_ * sign(w1);
+    caster_efforts(w0, w1, f0, f1);
+    f0 += k0_ * sign(w0);
+    f1 += k1_ * sign(w1);
+  }
+
+  // the wheel torques' levels k_i = C_rr N_i r of the loads last computed
+  double k0() const { return k0_; }
+  double k1() const { return k1_; }
+
+  // the casters' share of `efforts` alone (RollingLoads.caster_efforts)
+  void caster_efforts(double w0, double w1, double& f0, double& f1) const {
+    f0 = 0.0;
+    f1 = 0.0;
     for (Eigen::Index i = 0; i < casters_.rows(); ++i) {
       const double cN = cN_[size_t(i)];
       if (!(cN > 0.0)) continue;
@@ -208,26 +222,44 @@ class Reduction {
   Eigen::Matrix<double, 3, 2> A_;
 };
 
-// Forward dynamics of the reduced coordinates and the RK4 / Euler steps.
+// Forward dynamics of the reduced coordinates and the RK4 / Euler steps, with
+// the stick-slip friction and the hard joint stops decided at each step's
+// start (opspace/dynamics/stick_slip.py, `StickSlip.begin`, has the model and
+// is the reference of `begin` below, operation for operation).
 class Plant {
  public:
-  // S (nv_full, nv); free (nv,) 1 = free, 0 = locked; coulomb, viscous (nv,);
-  // rolling: A (2 + n_casters, 3) the static-load map N = W A [1, x_p, y_p],
-  // casters (n_casters, 4) = (J_x0, J_x1, J_y0, J_y1) on the wheel columns,
-  // c_rr (1), r wheel radius m.  friction = false drops f altogether.
-  Plant(const MatrixXd& S, const VectorXd& free, const VectorXd& coulomb,
-        const VectorXd& viscous, bool friction, const MatrixXd& A, const MatrixXd& casters,
-        double c_rr, double r)
-      : S_(S), red_(S), coulomb_(coulomb), viscous_(viscous), friction_(friction),
-        rolling_model_(A, casters, c_rr, r) {
+  // S (nv_full, nv); locked (nv,) 1 = held still by the caller; Fk, Fs, fv (nv,)
+  // kinetic, static and viscous friction (zeros when friction is off);
+  // frictional (nv,) 1 = takes part in sticking; lo, hi (nv,) stop limits and
+  // qi (nv,) their index in q (-1: no stop); rolling: A (2 + n_casters, 3) the
+  // static-load map N = W A [1, x_p, y_p], casters (n_casters, 4) =
+  // (J_x0, J_x1, J_y0, J_y1) on the wheel columns, c_rr (0 = none), r wheel radius m.
+  Plant(const MatrixXd& S, const VectorXd& locked, const VectorXd& Fk, const VectorXd& Fs,
+        const VectorXd& fv, const VectorXd& frictional, const VectorXd& lo, const VectorXd& hi,
+        const VectorXd& qi, const MatrixXd& A, const MatrixXd& casters, double c_rr, double r)
+      : S_(S), red_(S), Fk0_(Fk), Fs0_(Fs), fv_(fv), lo_(lo), hi_(hi), rolling_model_(A, casters,
+                                                                                  c_rr, r) {
     const Eigen::Index nv = S.cols();
-    for (Eigen::Index i = 0; i < nv; ++i)
-      if (free[i] != 0.0) free_.push_back(static_cast<int>(i));
-    all_free_ = static_cast<Eigen::Index>(free_.size()) == nv;
-    rolling_ = friction && c_rr > 0.0;
+    nv_ = nv;
+    for (Eigen::Index i = 0; i < nv; ++i) {
+      locked_.push_back(locked[i] != 0.0);
+      frictional_.push_back(frictional[i] != 0.0);
+      qi_.push_back(static_cast<int>(qi[i]));
+      if (qi[i] >= 0.0) stop_coords_.push_back(static_cast<int>(i));
+    }
+    rolling_ = c_rr > 0.0;
+    held_.assign(size_t(nv), false);
+    side_.assign(size_t(nv), 0);
+    first_stop_ = VectorXd::Constant(nv, -1.0);
+    stop_side_ = VectorXd::Zero(nv);
+    s_ = VectorXd::Zero(nv);
+    Fk_ = Fk0_;
+    set_free();
     v_.resize(S.rows());
     dq_.resize(S.rows());
     rhs_.resize(nv);
+    base_.resize(nv);
+    H_.resize(nv);
     Mr_.resize(nv, nv);
     a2_.resize(nv);
     a3_.resize(nv);
@@ -237,56 +269,11 @@ class Plant {
     nu4_.resize(nv);
   }
 
-  // Static contact loads at q, frozen for one step (RollingLoads in Python).
-  void start(const Model& model, Data& data, CRefV q) {
-    if (rolling_) rolling_model_.load(model, data, q);
-  }
-
-  // ν̇ into out at (q, ν) under Q; false when M (its free block) is not PD.
-  bool accel(const Model& model, Data& data, CRefV q, CRefV nu, CRefV Q, RefV out) {
-    red_.velocity(nu, v_);
-    pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);
-    red_.mass(data.M, Mr_);
-    pinocchio::nonLinearEffects(model, data, q, v_);
-    red_.force(data.nle, rhs_);
-    rhs_ = Q - rhs_;
-    if (friction_) {
-      for (Eigen::Index i = 0; i < rhs_.size(); ++i)
-        rhs_[i] -= coulomb_[i] * sign(nu[i]) + viscous_[i] * nu[i];
-      if (rolling_) {
-        double f0, f1;
-        rolling_model_.efforts(nu[0], nu[1], f0, f1);
-        rhs_[0] -= f0;
-        rhs_[1] -= f1;
-      }
-    }
-    if (all_free_) {
-      llt_.compute(Mr_);
-      if (llt_.info() != Eigen::Success) return false;
-      out = llt_.solve(rhs_);
-      return true;
-    }
-    const Eigen::Index n = static_cast<Eigen::Index>(free_.size());
-    MatrixXd Mff(n, n);
-    VectorXd rf(n);
-    for (Eigen::Index i = 0; i < n; ++i) {
-      rf[i] = rhs_[free_[size_t(i)]];
-      for (Eigen::Index j = 0; j < n; ++j) Mff(i, j) = Mr_(free_[size_t(i)], free_[size_t(j)]);
-    }
-    llt_.compute(Mff);
-    if (llt_.info() != Eigen::Success) return false;
-    const VectorXd x = llt_.solve(rf);
-    out.setZero();
-    for (Eigen::Index i = 0; i < n; ++i) out[free_[size_t(i)]] = x[i];
-    return true;
-  }
-
   // One classical RK4 step (as `_rk4`): q, ν advanced in place, ν̇ at the
   // start written to nu_dot.  Returns 0, 1 when M is not PD, 2 when the new
   // state is not finite (NaN or inf).
   int rk4(const Model& model, Data& data, RefV q, RefV nu, CRefV Q, double h, RefV nu_dot) {
-    start(model, data, q);
-    if (!accel(model, data, q, nu, Q, nu_dot)) return 1;
+    if (!begin(model, data, q, nu, Q, nu_dot)) return 1;
     const double h2 = 0.5 * h;
     nu2_ = nu + h2 * nu_dot;
     if (!stage(model, data, q, nu, h2, nu2_, Q, a2_)) return 1;
@@ -303,21 +290,199 @@ class Plant {
 
   // Semi-implicit Euler: ν⁺ = ν + h ν̇(q, ν), q⁺ = q ⊕ h S ν⁺.
   int euler(const Model& model, Data& data, RefV q, RefV nu, CRefV Q, double h, RefV nu_dot) {
-    start(model, data, q);
-    if (!accel(model, data, q, nu, Q, nu_dot)) return 1;
+    if (!begin(model, data, q, nu, Q, nu_dot)) return 1;
     nu += h * nu_dot;
     dq_.noalias() = S_ * (h * nu);
     integrate(model, q);
     return finite(q, nu) ? 0 : 2;
   }
 
-  // ν̇ alone (the last recorded sample), with the loads of q.
-  int accel_only(const Model& model, Data& data, CRefV q, CRefV nu, CRefV Q, RefV nu_dot) {
-    start(model, data, q);
-    return accel(model, data, q, nu, Q, nu_dot) ? 0 : 1;
+  // The step's start alone (the last recorded sample): ν̇ at (q, ν).
+  int accel_only(const Model& model, Data& data, RefV q, RefV nu, CRefV Q, RefV nu_dot) {
+    return begin(model, data, q, nu, Q, nu_dot) ? 0 : 1;
+  }
+
+  // out (3 nv + 1) = [held (nv) | first stop step (nv, -1 none) | its side | loss J]
+  void state(RefV out) const {
+    for (Eigen::Index i = 0; i < nv_; ++i) out[i] = held_[size_t(i)] ? 1.0 : 0.0;
+    out.segment(nv_, nv_) = first_stop_;
+    out.segment(2 * nv_, nv_) = stop_side_;
+    out[3 * nv_] = loss_;
   }
 
  private:
+  // StickSlip.begin: stops, impulses, the stuck set, the frozen directions
+  bool begin(const Model& model, Data& data, RefV q, RefV nu, CRefV Q, RefV nu_dot) {
+    const Eigen::Index nv = nv_;
+    ++step_;
+    bool impact = false;
+    for (int i : stop_coords_) {
+      const size_t k = size_t(i);
+      const int j = qi_[k];
+      side_[k] = 0;
+      if (q[j] >= hi_[i] && nu[i] >= 0.0)
+        side_[k] = 1;
+      else if (q[j] <= lo_[i] && nu[i] <= 0.0)
+        side_[k] = -1;
+      if (side_[k] != 0) {
+        if (nu[i] != 0.0) impact = true;
+        if (nu[i] != 0.0 && first_stop_[i] < 0.0) {   // arrived, not resting
+          first_stop_[i] = double(step_);
+          stop_side_[i] = side_[k];
+        }
+      }
+    }
+    pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);
+    red_.mass(data.M, Mr_);
+    if (impact) {
+      std::vector<char> I(size_t(nv), false), fixed(size_t(nv), false);
+      for (Eigen::Index i = 0; i < nv; ++i) {
+        const size_t k = size_t(i);
+        I[k] = side_[k] != 0 && nu[i] != 0.0;
+        fixed[k] = locked_[k] || (held_[k] && side_[k] == 0);
+      }
+      if (!impulse(nu, I, fixed)) return false;
+    }
+    red_.velocity(nu, v_);
+    pinocchio::nonLinearEffects(model, data, q, v_);
+    red_.force(data.nle, rhs_);
+    base_ = Q - rhs_;
+    base_ -= fv_.cwiseProduct(nu);
+    Fk_ = Fk0_;
+    VectorXd Fs = Fs0_;
+    if (rolling_) {
+      rolling_model_.load(model, data, q);
+      Fk_[0] += rolling_model_.k0();
+      Fk_[1] += rolling_model_.k1();
+      Fs[0] += rolling_model_.k0();
+      Fs[1] += rolling_model_.k1();
+      double c0, c1;
+      rolling_model_.caster_efforts(nu[0], nu[1], c0, c1);
+      base_[0] -= c0;
+      base_[1] -= c1;
+    }
+    std::vector<char> C(size_t(nv), false);
+    for (Eigen::Index i = 0; i < nv; ++i) {
+      const size_t k = size_t(i);
+      C[k] = !locked_[k] && (held_[k] || side_[k] != 0 ||
+                             (frictional_[k] && (nu[i] == 0.0 || nu[i] * s_[i] < 0.0)));
+      s_[i] = C[k] ? 0.0 : sign(nu[i]);
+    }
+    held_ = C;
+    while (true) {
+      set_free();
+      rhs_ = base_ - Fk_.cwiseProduct(s_);
+      if (!solve_free(Mr_, rhs_, nu_dot)) return false;
+      bool any = false;
+      for (char c : held_) any = any || c;
+      if (!any) break;
+      H_ = base_;
+      H_.noalias() -= Mr_ * nu_dot;
+      Eigen::Index best = -1;
+      double worst = -std::numeric_limits<double>::infinity();
+      for (Eigen::Index i = 0; i < nv; ++i) {
+        const size_t k = size_t(i);
+        if (!held_[k]) continue;
+        const double e = side_[k] > 0 ? -H_[i] - Fs[i]
+                         : side_[k] < 0 ? H_[i] - Fs[i] : std::abs(H_[i]) - Fs[i];
+        if (e > worst) {
+          worst = e;
+          best = i;
+        }
+      }
+      if (!(worst > 0.0)) break;
+      held_[size_t(best)] = false;
+      s_[best] = nu[best] != 0.0 ? sign(nu[best]) : sign(H_[best]);
+    }
+    bool reset = false;
+    std::vector<char> I(size_t(nv), false), fixed(size_t(nv), false);
+    for (Eigen::Index i = 0; i < nv; ++i) {
+      const size_t k = size_t(i);
+      I[k] = held_[k] && nu[i] != 0.0;
+      fixed[k] = locked_[k] || (held_[k] && !I[k]);
+      reset = reset || I[k];
+    }
+    if (reset && !impulse(nu, I, fixed)) return false;
+    return true;
+  }
+
+  // ν_I → 0 by a plastic impulse on I with `fixed` still; the loss into loss_
+  bool impulse(RefV nu, const std::vector<char>& I, const std::vector<char>& fixed) {
+    const double T0 = 0.5 * nu.dot(Mr_ * nu);
+    std::vector<int> F, J;
+    for (Eigen::Index i = 0; i < nv_; ++i) {
+      if (I[size_t(i)]) J.push_back(int(i));
+      else if (!fixed[size_t(i)]) F.push_back(int(i));
+    }
+    if (!F.empty()) {
+      const Eigen::Index n = Eigen::Index(F.size());
+      MatrixXd Mff(n, n);
+      VectorXd b = VectorXd::Zero(n);
+      for (Eigen::Index a = 0; a < n; ++a) {
+        for (Eigen::Index c = 0; c < n; ++c) Mff(a, c) = Mr_(F[size_t(a)], F[size_t(c)]);
+        for (int j : J) b[a] += Mr_(F[size_t(a)], j) * nu[j];
+      }
+      Eigen::LLT<MatrixXd> llt(Mff);
+      if (llt.info() != Eigen::Success) return false;
+      const VectorXd x = llt.solve(b);
+      for (Eigen::Index a = 0; a < n; ++a) nu[F[size_t(a)]] += x[a];
+    }
+    for (int j : J) nu[j] = 0.0;
+    loss_ += T0 - 0.5 * nu.dot(Mr_ * nu);
+    return true;
+  }
+
+  void set_free() {
+    free_.clear();
+    for (Eigen::Index i = 0; i < nv_; ++i)
+      if (!locked_[size_t(i)] && !held_[size_t(i)]) free_.push_back(int(i));
+    all_free_ = Eigen::Index(free_.size()) == nv_;
+  }
+
+  // out = M_FF⁻¹ rhs_F on the free coordinates, zero on the held ones
+  bool solve_free(const MatrixXd& M, const VectorXd& rhs, RefV out) {
+    if (all_free_) {
+      llt_.compute(M);
+      if (llt_.info() != Eigen::Success) return false;
+      out = llt_.solve(rhs);
+      return true;
+    }
+    const Eigen::Index n = static_cast<Eigen::Index>(free_.size());
+    out.setZero();
+    if (n == 0) return true;
+    MatrixXd Mff(n, n);
+    VectorXd rf(n);
+    for (Eigen::Index i = 0; i < n; ++i) {
+      rf[i] = rhs[free_[size_t(i)]];
+      for (Eigen::Index j = 0; j < n; ++j) Mff(i, j) = M(free_[size_t(i)], free_[size_t(j)]);
+    }
+    llt_.compute(Mff);
+    if (llt_.info() != Eigen::Success) return false;
+    const VectorXd x = llt_.solve(rf);
+    for (Eigen::Index i = 0; i < n; ++i) out[free_[size_t(i)]] = x[i];
+    return true;
+  }
+
+  // ν̇ inside the step at (q, ν): the held set and directions of its start
+  bool accel(const Model& model, Data& data, CRefV q, CRefV nu, CRefV Q, RefV out) {
+    red_.velocity(nu, v_);
+    pinocchio::crba(model, data, q, pinocchio::Convention::WORLD);
+    red_.mass(data.M, Mr_);
+    pinocchio::nonLinearEffects(model, data, q, v_);
+    red_.force(data.nle, rhs_);
+    rhs_ = Q - rhs_;
+    H_ = Fk_.cwiseProduct(s_);          // f = F_k s + f_v ν (+ the casters), StickSlip.stage_friction
+    H_ += fv_.cwiseProduct(nu);
+    if (rolling_) {
+      double c0, c1;
+      rolling_model_.caster_efforts(nu[0], nu[1], c0, c1);
+      H_[0] += c0;
+      H_[1] += c1;
+    }
+    rhs_ -= H_;
+    return solve_free(Mr_, rhs_, out);
+  }
+
   // the stage acceleration at q ⊕ c h S ν_prev with rates ν_i
   bool stage(const Model& model, Data& data, CRefV q, CRefV nu_prev, double ch, CRefV nu_i,
              CRefV Q, RefV out) {
@@ -337,11 +502,15 @@ class Plant {
 
   MatrixXd S_;
   Reduction red_;
-  VectorXd coulomb_, viscous_;
-  bool friction_, rolling_, all_free_;
-  std::vector<int> free_;
+  VectorXd Fk0_, Fs0_, fv_, lo_, hi_, Fk_, s_, first_stop_, stop_side_;
+  Eigen::Index nv_;
+  bool rolling_, all_free_ = true;
+  std::vector<char> locked_, frictional_, held_;
+  std::vector<int> qi_, stop_coords_, side_, free_;
+  long step_ = -1;
+  double loss_ = 0.0;
   Rolling rolling_model_;
-  VectorXd v_, dq_, rhs_, qs_, a2_, a3_, a4_, nu2_, nu3_, nu4_;
+  VectorXd v_, dq_, rhs_, base_, H_, qs_, a2_, a3_, a4_, nu2_, nu3_, nu4_;
   MatrixXd Mr_;
   Eigen::LLT<MatrixXd> llt_;
 };
@@ -748,11 +917,13 @@ BOOST_PYTHON_MODULE(_kernel) {
   bp::scope().attr("PINOCCHIO_VERSION") = PINOCCHIO_VERSION;
   bp::scope().attr("EIGENPY_VERSION") = EIGENPY_VERSION;
   bp::class_<Plant>("Plant", bp::init<const MatrixXd&, const VectorXd&, const VectorXd&,
-                                      const VectorXd&, bool, const MatrixXd&, const MatrixXd&,
-                                      double, double>())
+                                      const VectorXd&, const VectorXd&, const VectorXd&,
+                                      const VectorXd&, const VectorXd&, const VectorXd&,
+                                      const MatrixXd&, const MatrixXd&, double, double>())
       .def("rk4", &Plant::rk4)
       .def("euler", &Plant::euler)
-      .def("accel", &Plant::accel_only);
+      .def("accel", &Plant::accel_only)
+      .def("state", &Plant::state);
   bind_named();
   bp::class_<Controller>("Controller",
                          bp::init<const MatrixXd&, const MatrixXd&, const VectorXd&,

@@ -156,13 +156,34 @@ def _cmd_simulate(args):
                 exc.result.to_csv(out / "partial_run.csv")
                 print(f"partial run kept in {out / 'partial_run.csv'}", file=sys.stderr)
             return 1
+        check = None
+        if args.step_check:
+            from .simulation import compare_runs
+            half = run.run(integrator=args.integrator, step=scenario.step / 2,
+                           progress=lambda d, t: progress("half step", d, t))
+            check = compare_runs(result, half)
+            result.extra["step_check"] = check.to_dict()
         paths = write_simulation_outputs(run, result, out, animate=not args.no_animation,
                                          progress=lambda d, t: progress("figures", d, t))
     finally:
         progress.close()
     print(simulation_text(run, result))
+    if check is not None:
+        print(_step_check_line(check, scenario.step))
     print(f"outputs in {out}: " + ", ".join(sorted(p.name for p in paths.values())))
-    return 0
+    return 0 if result.status == "completed" and (check is None or check.passed) else 1
+
+
+def _step_check_line(check, step):
+    worst = check.worst
+    where = (f"; largest difference {worst[4]:.2%} in {worst[0]}" if worst is not None else "")
+    if check.passed:
+        return (f"step check PASSED: RK4 at {step * 1e3:g} ms and at {step * 500:g} ms agree "
+                f"within {check.rtol:.0%} on every headline figure{where}")
+    bad = [r[0] for r in check.rows if not r[5]]
+    return (f"step check FAILED: RK4 at {step * 1e3:g} ms and at {step * 500:g} ms differ by "
+            f"more than {check.rtol:.0%} in {', '.join(bad[:4])}"
+            f"{' ...' if len(bad) > 4 else ''}{where}: the headline figures depend on the step")
 
 
 # -------------------------------------------------------------- opspace contact
@@ -482,6 +503,9 @@ def build_parser():
     p.add_argument("--payload-error", type=float, default=None,
                    help="relative payload-mass error of the controller's model (e.g. 0.1)")
     p.add_argument("--no-animation", action="store_true", help="skip the GIF")
+    p.add_argument("--step-check", action="store_true",
+                   help="run again at half the step and compare the headline figures "
+                        "(exit 1 if any differs by more than 1 %%)")
     p.add_argument("--reference-loop", action="store_true",
                    help="run the NumPy reference loop instead of the compiled kernel "
                         "(same equations, ~5x slower; for cross-checks)")

@@ -100,7 +100,8 @@ class MobileManipulator:
     nv : int                     number of reduced coordinates
     coordinate_names : list[str] wheel_right, wheel_left, then arm joints
     arm_joint_names : list[str]  the URDF's moving joints, in chain order
-    coulomb, viscous : ndarray (nv,)  friction per reduced coordinate
+    coulomb, viscous : ndarray (nv,)  friction per reduced coordinate (coulomb: kinetic)
+    stiction : ndarray (nv,)     static (breakaway) friction level, >= coulomb
     effort_limit, velocity_limit : ndarray (nv,)  ±limits (inf if unknown)
     lower, upper : ndarray (nv - 2,)   arm position limits
     contacts : tuple[Contact]    the drive-wheel contacts then the casters
@@ -226,9 +227,22 @@ class MobileManipulator:
                 coulomb[j] = jd.coulomb
             if jd.viscous is not None:
                 viscous[j] = jd.viscous
+        # the static (breakaway) level: `stiction` where given, else the kinetic one
+        stiction = coulomb.copy()
+        for j, jname in enumerate(names):
+            jd = d.arm_joints.get(jname)
+            if jd is None or jd.stiction is None:
+                continue
+            if jd.stiction < coulomb[j]:
+                raise ConfigError(f"{d.path.name}: [arm_joint.{jname}] stiction must be >= its "
+                                  f"kinetic (coulomb) friction {coulomb[j]:g}, got "
+                                  f"{jd.stiction:g}")
+            stiction[j] = jd.stiction
         E = self.S[5:, 2:]
         self.coulomb = np.concatenate([[d.drive.coulomb] * 2, np.abs(E).T.dot(coulomb)])
         self.viscous = np.concatenate([[d.drive.viscous] * 2, (E * E).T.dot(viscous)])
+        wheel_stiction = d.drive.coulomb if d.drive.stiction is None else d.drive.stiction
+        self.stiction = np.concatenate([[wheel_stiction] * 2, np.abs(E).T.dot(stiction)])
         full = np.zeros(self.model.nv)
         full[3:5] = d.drive.reflected_inertia
         full[5:] = armature_full

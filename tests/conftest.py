@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import numpy as np
@@ -174,3 +175,34 @@ def png_checked(fig, *, min_height):
     assert min_height <= height <= 2000, f"figure is {height} px high"
     assert 10_000 < len(data) < 3_000_000, f"PNG of {len(data)} bytes: empty or bloated"
     return data
+
+
+def mujoco_fall(robot, arm0, *, stops=None, seconds=1.0):
+    """The arm's joint positions every 0.1 s of a fall from `arm0` (wheels held,
+    no friction), by MuJoCo's RK4 at 0.1 ms on the robot's own URDF, with the
+    same armature and gravity.  stops: None (limits off) or MuJoCo's joint-limit
+    solref (the URDF limits as limited="true" constraints)."""
+    mujoco = pytest.importorskip("mujoco")
+    src = re.sub(r"<dynamics[^>]*/>", "", robot.description.arm_urdf.read_text())
+    i = src.index(">", src.index("<robot")) + 1
+    src = (src[:i] + '<mujoco><compiler discardvisual="false" fusestatic="false" '
+           'balanceinertia="false"/></mujoco>' + src[i:])
+    m = mujoco.MjModel.from_xml_string(src)
+    if stops is None:
+        m.jnt_limited[:] = 0
+    else:
+        assert m.jnt_limited.all()                     # limited="true" from the URDF
+        m.jnt_solref[:] = stops
+        m.jnt_solimp[:, :2] = (0.99, 0.99)
+    m.dof_armature[:] = robot.armature[2:]
+    m.opt.gravity[:] = (0.0, 0.0, -opspace.GRAVITY)
+    m.opt.integrator = mujoco.mjtIntegrator.mjINT_RK4
+    m.opt.timestep = 1e-4
+    d = mujoco.MjData(m)
+    d.qpos[:] = arm0
+    ref = [d.qpos.copy()]
+    for _ in range(int(round(seconds * 10))):
+        for _ in range(1000):
+            mujoco.mj_step(m, d)
+        ref.append(d.qpos.copy())
+    return np.array(ref)

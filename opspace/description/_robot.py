@@ -103,7 +103,8 @@ class WheelSpec:
 class DriveSpec:
     """Each drive wheel's motor and gearbox. rotor_inertia kg·m² (at the
     motor), gear_ratio (motor speed / wheel speed), efficiency (0, 1],
-    coulomb N·m and viscous N·m·s/rad friction at the wheel."""
+    coulomb N·m (kinetic) and viscous N·m·s/rad friction at the wheel; stiction
+    N·m the static (breakaway) level, >= coulomb (None: equal to coulomb)."""
 
     rotor_inertia: float
     gear_ratio: float
@@ -111,6 +112,7 @@ class DriveSpec:
     coulomb: float = 0.0
     viscous: float = 0.0
     torque_limit: float = math.inf
+    stiction: float | None = None
 
     @property
     def reflected_inertia(self):
@@ -120,13 +122,16 @@ class DriveSpec:
 
 @dataclass(frozen=True)
 class ArmJointDrive:
-    """Per arm joint: coulomb (N·m or N), viscous (N·m·s/rad or N·s/m),
-    rotor_inertia kg·m², gear_ratio.  None means "take the URDF value"."""
+    """Per arm joint: coulomb (N·m or N, kinetic), viscous (N·m·s/rad or
+    N·s/m), stiction (N·m or N, static breakaway level >= the kinetic one),
+    rotor_inertia kg·m², gear_ratio.  None means "take the URDF value" (for
+    stiction: equal to the kinetic level)."""
 
     coulomb: float | None = None
     viscous: float | None = None
     rotor_inertia: float = 0.0
     gear_ratio: float = 1.0
+    stiction: float | None = None
 
     @property
     def reflected_inertia(self):
@@ -349,7 +354,11 @@ def _read_drive(s):
         coulomb=s.number("coulomb", 0.0, unit="N·m", lo=0.0),
         viscous=s.number("viscous", 0.0, unit="N·m·s/rad", lo=0.0),
         torque_limit=s.number("torque_limit", math.inf, unit="N·m", lo=0.0, lo_open=True),
+        stiction=s.number("stiction", unit="N·m", lo=0.0, required=False),
     )
+    if drive.stiction is not None and drive.stiction < drive.coulomb:
+        s.fail("stiction", f"must be >= coulomb = {drive.coulomb:g} N·m (the static friction "
+                           f"level is at least the kinetic one), got {drive.stiction:g}")
     s.finish()
     return drive
 
@@ -533,6 +542,7 @@ def _read_arm_joints(path, table, arm):
             viscous=s.number("viscous", unit="N·m·s/rad or N·s/m", lo=0.0, required=False),
             rotor_inertia=s.number("rotor_inertia", 0.0, unit="kg·m²", lo=0.0),
             gear_ratio=s.number("gear_ratio", 1.0, lo=0.0, lo_open=True, hi=MAX_GEAR_RATIO),
+            stiction=s.number("stiction", unit="N·m or N", lo=0.0, required=False),
         )
         s.finish()
     return drives

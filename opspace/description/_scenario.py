@@ -10,7 +10,8 @@
     control_rate = 1000.0        # Hz, controller sampling (default 1/step); step × rate
                                  # must divide into whole steps
     integrator = "rk4"           # rk4 | euler
-    friction = true              # Coulomb, viscous, rolling resistance in the plant
+    friction = true              # stick-slip, viscous, rolling resistance in the plant
+    joint_stops = true           # arm joints stop at their URDF position limits
     arm_start = "carry"          # a [poses] name or joint values (default zeros)
 
     [controller]
@@ -21,7 +22,7 @@
     posture = "carry"            # null-space posture: a [poses] name or joint values
     posture_stiffness = 25.0     # 1/s²
     wheel_gain = 10.0            # 1/s, wheel-rate servo
-    friction_feedforward = true
+    friction_feedforward = true  # default: the same as [simulation] friction
     friction_velocity = 0.02     # rad/s or m/s: the Coulomb feed-forward is f_C tanh(ν / this)
                                  # (a sampled sign(ν) near rest pushes the wrong way); 0 = sign
     payload_mass_error = 0.0     # the controller's payload mass is (1 + this) × the true one
@@ -44,6 +45,8 @@
     pick = 5.0                   # s
     release = 9.0                # s, optional
     pick_tolerance = 0.02        # m: the tool target must be this close at the pick
+    load_transfer = 0.0          # s: the payload's weight is taken up over this time (0: at once)
+    pick_speed_limit = 0.05      # m/s: a faster tool at the pick is flagged ("fast_pick")
 
 The robot is checked first; then every waypoint against the arm's reach from
 the mount at the base pose of its time, and the pick against the tool target.
@@ -108,6 +111,9 @@ class Scenario:
     pick: float | None
     release: float | None
     pick_tolerance: float
+    joint_stops: bool = True
+    load_transfer: float = 0.0
+    pick_speed_limit: float = 0.05
     extra: dict = field(default_factory=dict)
 
 
@@ -160,6 +166,7 @@ def load_scenario(path):
     if integrator not in ("rk4", "euler"):
         s.fail("integrator", f"must be rk4 or euler, got {integrator!r}")
     friction = _bool(s, "friction", True)
+    joint_stops = _bool(s, "joint_stops", True)
     arm_start = s.pose("arm_start")
     s.finish()
     robot_path = referenced_path(path, robot_rel)
@@ -186,7 +193,8 @@ def load_scenario(path):
         "posture": s.pose("posture"),
         "posture_stiffness": s.number("posture_stiffness", 25.0, unit="1/s²", lo=0.0),
         "wheel_gain": s.number("wheel_gain", 10.0, unit="1/s", lo=0.0),
-        "friction_feedforward": _bool(s, "friction_feedforward", True),
+        # the feed-forward follows the plant's friction unless the file says otherwise
+        "friction_feedforward": _bool(s, "friction_feedforward", friction),
         "friction_velocity": s.number("friction_velocity", 0.02, unit="rad/s or m/s", lo=0.0),
         "payload_mass_error": s.number("payload_mass_error", 0.0, lo=-0.9, hi=10.0),
     }
@@ -212,7 +220,7 @@ def load_scenario(path):
                           f"simulation ([simulation] duration = {duration:g} s)")
 
     payload = position = pick = release = None
-    tol = 0.02
+    tol, transfer, pick_speed = 0.02, 0.0, 0.05
     if "payload" in doc:
         s = Section(path, "payload", doc["payload"])
         rated = _bool(s, "rated", False)
@@ -225,7 +233,10 @@ def load_scenario(path):
         position = s.vector("position", 3, unit="m")
         pick = s.number("pick", unit="s", lo=0.0)
         release = s.number("release", unit="s", lo=0.0, required=False)
-        tol = s.number("pick_tolerance", 0.02, unit="m", lo=0.0, lo_open=True)
+        tol = s.number("pick_tolerance", 0.02, unit="m", lo=0.0, lo_open=True, hi=1.0)
+        transfer = s.number("load_transfer", 0.0, unit="s", lo=0.0, hi=60.0)
+        pick_speed = s.number("pick_speed_limit", 0.05, unit="m/s", lo=0.0, lo_open=True,
+                              hi=10.0)
         s.finish()
         if release is not None and release <= pick:
             s.fail("release", f"must come after pick = {pick:g} s, got {release:g} s")
@@ -236,7 +247,9 @@ def load_scenario(path):
                     duration=duration, step=step, control_period=1.0 / rate,
                     integrator=integrator, friction=friction, arm_start=arm_start,
                     controller=controller, base=base, waypoints=waypoints, payload=payload,
-                    payload_position=position, pick=pick, release=release, pick_tolerance=tol)
+                    payload_position=position, pick=pick, release=release, pick_tolerance=tol,
+                    joint_stops=joint_stops, load_transfer=transfer,
+                    pick_speed_limit=pick_speed)
 
 
 def _read_base_piece(path, i, entry):

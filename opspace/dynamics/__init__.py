@@ -6,6 +6,9 @@
   like `pinocchio.Data`), the batch threads, the compiled plant.
 - `_joint_space`: M, c, g, friction, inverse / forward dynamics, batches,
   locked-arm drive inertia (validated, assembled from `_terms`).
+- `_stick_slip`: the simulation plant's stick-slip friction and joint stops,
+  decided at each step's start (`StickSlip`, the NumPy reference of the
+  compiled plant).
 - `_task_space`: J, J̇ν, Λ, μ, p, J̄, N, effective mass (operational space).
 
 The term functions without validation (`mass_matrix`, `bias_forces`,
@@ -17,6 +20,7 @@ validated ones (`joint_space`, `task_space`, `friction`, ...).
 from ._joint_space import (DriveInertia, JointSpaceTerms, drive_inertia, forward_dynamics,
                            friction, inverse_dynamics, inverse_dynamics_batch, joint_space,
                            kinetic_energy, potential_energy)
+from ._stick_slip import StickSlip
 from ._task_space import (AXIS_NAMES, DEFAULT_DAMPING, InertiaEllipsoid, TaskSpaceTerms,
                           cartesian_task_space, effective_mass, inertia_ellipsoid, task_space)
 from ._task_space import _frame as resolve_frame
@@ -39,6 +43,7 @@ __all__ = [
     "InertiaEllipsoid",
     "JointSpaceTerms",
     "RollingLoads",
+    "StickSlip",
     "TaskSpaceTerms",
     "Workspace",
     "batch_threads",

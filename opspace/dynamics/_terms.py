@@ -19,8 +19,9 @@ Rolling resistance: each contact i carries the static normal load N_i of a
 rigid chassis on contacts of equal vertical stiffness at the current centre of
 mass, and resists with C_rr N_i: on a drive wheel a torque C_rr N_i r sign(φ̇_i),
 on a caster a force C_rr N_i against the caster's ground velocity, mapped to ν
-by the contact Jacobian.  Coulomb friction is zero at zero velocity (no
-stiction model here; a stick-slip model extends `coulomb_viscous`).
+by the contact Jacobian.  Coulomb friction is zero at zero velocity here; the
+simulation plant's stick-slip model (`_stick_slip`) takes its static and
+kinetic levels and the joint stops from `FrictionLevels`.
 
 Model and workspace (Pinocchio's Model / Data split): the robot is constant
 during a computation; `Workspace` holds what is derived from it and the
@@ -181,6 +182,36 @@ def coulomb_viscous(robot, nu, smoothing=0.0):
     return robot.coulomb * np.sign(nu) + robot.viscous * nu
 
 
+class FrictionLevels:
+    """The stick-slip friction levels and joint stops of a simulation plant
+    (`opspace.dynamics._stick_slip`), per reduced coordinate.
+
+    Fk, Fs, fv (nv,): kinetic (`coulomb`), static (`stiction`) and viscous
+    friction, zeros with friction off; frictional (nv,) bool: can stick (a
+    level or the wheels' rolling resistance); rolling: the wheels' rolling
+    resistance C_rr N r adds to both levels; lo, hi (nv,): position stops of
+    the arm joints (±inf: none) and qi (nv,) their index in q (-1: none).
+    """
+
+    def __init__(self, robot, *, friction, stops):
+        nv = robot.nv
+        z = np.zeros(nv)
+        self.Fk = robot.coulomb.copy() if friction else z.copy()
+        self.Fs = robot.stiction.copy() if friction else z.copy()
+        self.fv = robot.viscous.copy() if friction else z.copy()
+        self.rolling = bool(friction and robot.rolling_resistance > 0.0)
+        self.frictional = (self.Fs > 0) | (self.Fk > 0)
+        if self.rolling:
+            self.frictional[:2] = True
+        self.lo, self.hi = np.full(nv, -np.inf), np.full(nv, np.inf)
+        self.qi = np.full(nv, -1)
+        if stops:
+            for k, j in enumerate(robot._arm_q_index):
+                if np.isfinite(robot.lower[k]) or np.isfinite(robot.upper[k]):
+                    self.lo[2 + k], self.hi[2 + k] = robot.lower[k], robot.upper[k]
+                    self.qi[2 + k] = j
+
+
 def static_contact_loads(contacts_xy, cop_xy, weight):
     """Normal loads of a rigid chassis on contacts of equal vertical stiffness.
 
@@ -226,8 +257,15 @@ class RollingLoads:
         """(f_r, f_l), N·m on the wheel coordinates (left-hand side)."""
         w0, w1 = float(nu[0]), float(nu[1])
         k0, k1 = self.k
-        f0 = k0 if w0 > 0 else (-k0 if w0 < 0 else 0.0)
-        f1 = k1 if w1 > 0 else (-k1 if w1 < 0 else 0.0)
+        f0, f1 = self.caster_efforts(nu)
+        f0 += k0 if w0 > 0 else (-k0 if w0 < 0 else 0.0)
+        f1 += k1 if w1 > 0 else (-k1 if w1 < 0 else 0.0)
+        return f0, f1
+
+    def caster_efforts(self, nu):
+        """The casters' share of `wheel_efforts` alone, (f_r, f_l) N·m."""
+        w0, w1 = float(nu[0]), float(nu[1])
+        f0 = f1 = 0.0
         for jx0, jx1, jy0, jy1, cN in self.casters:
             vx, vy = jx0 * w0 + jx1 * w1, jy0 * w0 + jy1 * w1
             speed = math.hypot(vx, vy)
@@ -389,16 +427,20 @@ def compiled_terms(robot):
     return _compiled.kernel_terms(robot.S, friction_model(robot))
 
 
-def compiled_plant(robot, locked, friction):
+def compiled_plant(robot, locked, friction, stops=True):
     """The compiled plant of the robot (`opspace._compiled.kernel_plant`), or None.
 
-    locked (nv,) bool: coordinates held still; friction: Coulomb, viscous and
-    rolling resistance on/off.
+    locked (nv,) bool: coordinates held still; friction: the stick-slip,
+    viscous friction and rolling resistance on/off; stops: arm joints stop at
+    their position limits (`FrictionLevels`; `opspace.dynamics._stick_slip` is
+    the NumPy reference of the plant).
     """
     if robot.mimic:   # the kernel's S is [A 0; I]: no mimic rows (the NumPy loop runs)
         return None
     ws = workspace(robot)
-    free = (~np.asarray(locked, bool)).astype(float)
-    return _compiled.kernel_plant(robot.S, free, robot.coulomb, robot.viscous, friction,
-                                  ws.A_pinv, ws.caster_rows, robot.rolling_resistance,
+    lv = FrictionLevels(robot, friction=friction, stops=stops)
+    return _compiled.kernel_plant(robot.S, np.asarray(locked, bool), lv.Fk, lv.Fs, lv.fv,
+                                  lv.frictional, lv.lo, lv.hi, lv.qi, ws.A_pinv,
+                                  ws.caster_rows,
+                                  robot.rolling_resistance if lv.rolling else 0.0,
                                   robot.wheel_radius)

@@ -94,7 +94,8 @@ class Estimate:
     """Identified base parameters and the corrected full set.
 
     beta, beta_prior, std (b,): estimate, the description's value, standard
-    deviation; sigma (k,) residual standard deviation per measured coordinate
+    deviation (inf where the motion does not excite the combination: it keeps
+    the description's value); sigma (k,) residual standard deviation per measured coordinate
     (N·m or N); theta (p,): the full set closest to the prior reproducing beta;
     rows_used: samples × coordinates fitted; condition: cond(W̃).
     """
@@ -107,6 +108,10 @@ class Estimate:
     theta: np.ndarray
     condition: float
     rows_used: int
+
+    def beta_payload_mass(self, params):
+        """The payload mass of the unconstrained minimum change θ̂, kg."""
+        return float(self.theta[params.payload.start])
 
     @property
     def relative_std(self):
@@ -124,6 +129,13 @@ def estimate(W, tau, coord, base, prior, spread=None):
     minimum change; None: all alike).
     """
     Wb = W[:, base.index]                    # W θ = W_b β (structurally, W_d = W_b K)
+    Bp = base.B.dot(prior)
+    # combinations this motion does not excite (a zero column of its regressor)
+    # are not determined by it: they keep the description's value, std = inf
+    norms = np.linalg.norm(Wb, axis=0)
+    excited = norms > 1e-9 * norms.max()
+    tau = tau - Wb[:, ~excited].dot(Bp[~excited])
+    Wb = Wb[:, excited]
     b = Wb.shape[1]
     r = len(tau)
     if r <= b:
@@ -140,12 +152,13 @@ def estimate(W, tau, coord, base, prior, spread=None):
         sigma[i] = math.sqrt(float(rho[rows].dot(rho[rows])) / dof)
         w[rows] = 1.0 / max(sigma[i], floor)
     Wt = Wb * w[:, None]
-    beta, *_ = np.linalg.lstsq(Wt, tau * w, rcond=None)
-    res = tau * w - Wt.dot(beta)
+    beta_e, *_ = np.linalg.lstsq(Wt, tau * w, rcond=None)
+    res = tau * w - Wt.dot(beta_e)
     s2 = float(res.dot(res)) / (r - b)
     cov = s2 * np.linalg.pinv(Wt.T.dot(Wt))
-    std = np.sqrt(np.maximum(np.diag(cov), 0.0))
-    Bp = base.B.dot(prior)
+    beta, std = Bp.copy(), np.full(len(Bp), np.inf)
+    beta[excited] = beta_e
+    std[excited] = np.sqrt(np.maximum(np.diag(cov), 0.0))
     D = np.ones(len(prior)) if spread is None else np.asarray(spread, float) ** 2
     BD = base.B * D[None, :]
     significant = np.abs(beta - Bp) > 2.0 * std

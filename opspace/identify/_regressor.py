@@ -48,7 +48,8 @@ class ParameterSet:
     spread (p,): how far each parameter may plausibly be from its prior (same
     unit), for the minimum change of `_estimate` (common practice, no source:
     masses ±30 % + 0.1 kg, first moments ±0.05 kg·m + 30 %, inertias ±30 % +
-    0.01 kg·m², armature ±5 % (data sheet), friction ±100 % + 0.1)
+    0.01 kg·m², armature ±5 % (data sheet), friction ±100 % + 0.1, rolling
+    resistance ±50 % + 0.002)
     """
 
     names: tuple
@@ -133,7 +134,9 @@ def _spread(names, prior):
             out[i] = 0.3 * abs(v) + 0.01
         elif kind == "armature":
             out[i] = 0.05 * abs(v) + 1e-6
-        else:                                   # coulomb, viscous, rolling_resistance
+        elif kind == "rolling_resistance":
+            out[i] = 0.5 * abs(v) + 0.002
+        else:                                   # coulomb, viscous
             out[i] = abs(v) + 0.1
     return out
 

@@ -3,12 +3,12 @@
 Derivatives come from zero-phase filtering: a 4th-order Butterworth low-pass
 run forward and backward (`scipy.signal.filtfilt`) on the positions, then
 central differences (`numpy.gradient`) for velocity and acceleration.  The
-efforts pass through the same filter, so the filter's effect on both sides of
-Q = W θ is matched (Gautier & Poignet 2001).  Coulomb friction
-steps where a rate changes sign; the efforts carry that step smeared by the
-filter, so the Coulomb columns of the regressor are filtered alike: the
-column is filtfilt(sign ν) instead of sign ν (the same filter on both sides
-of the equation, for the one column that is not smooth).  Samples within
+efforts pass through the same filter, and so does every column of the
+regressor, computed at every sample of the log before the samples are thinned
+(parallel filtering: Gautier & Poignet 2001), so the filter's effect on both
+sides of Q = W θ is matched — Coulomb friction and the casters' rolling
+resistance step where a rate changes sign, and the efforts carry those steps
+smeared by the filter.  Samples within
 one filter settling time of either end are dropped, and long logs are thinned
 evenly.
 """
@@ -21,7 +21,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import ConfigError
+from ._consistent import consistent_parameters
 from ._estimate import base_parameters, estimate
+from ._writeback import writable_parts
 from ._regressor import parameter_set, regressor
 
 __all__ = ["DEFAULT_CUTOFF", "Identification", "identify", "predict", "prepare"]
@@ -35,8 +37,9 @@ MAX_SAMPLES = 1500
 
 @dataclass(frozen=True, eq=False)
 class Prepared:
-    """Filtered states of one log: t, qs (n, nq), nu, nu_dot, tau (n, nv), held
-    (n,), signs (n, nv) the filtered sign of ν (the Coulomb columns)."""
+    """Filtered states of one log at the kept samples: t, qs (n, nq), nu,
+    nu_dot, tau (n, nv), held (n,); full: the states at every sample, the kept
+    indices and the filter, for the regressor filtered like the efforts."""
 
     t: np.ndarray
     qs: np.ndarray
@@ -44,7 +47,15 @@ class Prepared:
     nu_dot: np.ndarray
     tau: np.ndarray
     held: np.ndarray
-    signs: np.ndarray
+    full: tuple
+
+    def regressor(self, robot, params):
+        """W at the kept samples, low-pass filtered like the efforts: computed at
+        every sample of the log and filtered column by column (the same
+        zero-phase filter on both sides of Q = W θ)."""
+        qs, vel, acc, held, keep, low = self.full
+        W = regressor(robot, params, qs, vel, acc, held).reshape(len(qs), robot.nv, -1)
+        return low(W)[keep].reshape(len(keep) * robot.nv, -1)
 
 
 def prepare(robot, log, *, cutoff=DEFAULT_CUTOFF, max_samples=MAX_SAMPLES):
@@ -71,7 +82,6 @@ def prepare(robot, log, *, cutoff=DEFAULT_CUTOFF, max_samples=MAX_SAMPLES):
     acc = (low(log.acceleration) if log.acceleration is not None
            else np.gradient(vel, log.t, axis=0))
     tau = np.where(np.isnan(log.efforts), np.nan, low(np.nan_to_num(log.efforts)))
-    signs = low(np.sign(vel))
     keep = np.arange(edge, n - edge)
     # a payload picked or released is a step in the efforts: the filter smears
     # it, so the samples within its settling time are left out
@@ -80,19 +90,22 @@ def prepare(robot, log, *, cutoff=DEFAULT_CUTOFF, max_samples=MAX_SAMPLES):
         keep = keep[np.abs(keep - i) > edge]
     keep = keep[np.unique(np.linspace(0, len(keep) - 1, min(len(keep), max_samples))
                           .round().astype(int))]
-    qs = np.array([robot.configuration(wheels=pos[i, :2], arm=pos[i, 2:]) for i in keep])
-    return Prepared(log.t[keep], qs, vel[keep], acc[keep], tau[keep], log.payload[keep],
-                    signs[keep])
+    qs = np.array([robot.configuration(wheels=p[:2], arm=p[2:]) for p in pos])
+    return Prepared(log.t[keep], qs[keep], vel[keep], acc[keep], tau[keep], log.payload[keep],
+                    (qs, vel, acc, log.payload, keep, low))
 
 
 @dataclass(frozen=True, eq=False)
 class Identification:
     """The result of `identify`.
 
-    params: ParameterSet; fit: Estimate (base parameters, std, θ̂); measured
+    params: ParameterSet; fit: Estimate (base parameters, std, the minimum
+    change θ̂ without constraints); theta (p,): the physically consistent set
+    (`_consistent`), the one reported and written back; measured
     (nv,) bool; data: the Prepared logs; tau_pred, tau_prior: predictions of
     each log's efforts with β̂ and with the description (lists of (n, nv));
-    consistency: list of (body, problem) where θ̂ is not physical.
+    consistency: list of (body, problem) where `theta` is still not physical
+    (empty when the constrained fit converged).
     """
 
     robot: object
@@ -103,10 +116,11 @@ class Identification:
     tau_pred: tuple
     tau_prior: tuple
     consistency: tuple
+    theta: np.ndarray = None
 
     def value(self, name):
-        """θ̂ of a named parameter."""
-        return float(self.fit.theta[self.params.names.index(name)])
+        """The identified value of a named parameter (the consistent set)."""
+        return float(self.theta[self.params.names.index(name)])
 
     def prior(self, name):
         return float(self.params.prior[self.params.names.index(name)])
@@ -146,8 +160,7 @@ def identify(robot, logs, *, cutoff=DEFAULT_CUTOFF):
     params = parameter_set(robot, payload=payload)
     measured = np.any([log.measured for log in logs], axis=0)
     nv = robot.nv
-    blocks = [regressor(robot, params, d.qs, d.nu, d.nu_dot, d.held, signs=d.signs)
-              for d in data]
+    blocks = [d.regressor(robot, params) for d in data]
     W = np.vstack(blocks)
     tau = np.concatenate([d.tau.reshape(-1) for d in data])
     Wm, tm, coord = _rows(W, tau, measured, nv)
@@ -159,20 +172,29 @@ def identify(robot, logs, *, cutoff=DEFAULT_CUTOFF):
                           f"more samples (or motion of more coordinates)")
     _check_signs(robot, logs, data, blocks, params.prior, measured)
     fit = estimate(Wm, tm, coord, base, params.prior, params.spread)
-    if params.payload is not None and fit.theta[params.payload.start] <= 0.0:
-        raise ConfigError(f"the identified payload mass is {fit.theta[params.payload.start]:.3g} "
+    if params.payload is not None and fit.beta_payload_mass(params) <= 0.0:
+        raise ConfigError(f"the identified payload mass is {fit.beta_payload_mass(params):.3g} "
                           f"kg: are the efforts of the wrong sign, or the payload column wrong?")
     beta_rows = [Wb[:, base.index].dot(fit.beta).reshape(-1, nv) for Wb in blocks]
     prior_rows = [Wb.dot(params.prior).reshape(-1, nv) for Wb in blocks]
+    theta = fit.theta
+    if _consistency(params, theta):
+        # the minimum change left a body unphysical: the constrained fit, started
+        # from the description (always physical)
+        significant = np.abs(fit.beta - fit.beta_prior) > 2.0 * fit.std
+        theta, _ = consistent_parameters(params, base,
+                                         np.where(significant, fit.beta, fit.beta_prior),
+                                         fit.std, params.prior, params.spread,
+                                         writable_parts(robot, params))
     return Identification(robot, params, fit, measured, data, tuple(beta_rows),
-                          tuple(prior_rows), tuple(_consistency(params, fit.theta)))
+                          tuple(prior_rows), tuple(_consistency(params, theta)), theta)
 
 
 def predict(ident, log, *, cutoff=DEFAULT_CUTOFF):
     """Efforts of a (fresh) log predicted by the identified base parameters:
     (Prepared data, predicted efforts (n, nv))."""
     d = prepare(ident.robot, log, cutoff=cutoff)
-    W = regressor(ident.robot, ident.params, d.qs, d.nu, d.nu_dot, d.held, signs=d.signs)
+    W = d.regressor(ident.robot, ident.params)
     return d, W[:, ident.fit.base.index].dot(ident.fit.beta).reshape(-1, ident.robot.nv)
 
 

@@ -11,7 +11,9 @@ description (TOML) and its arm URDF:
   bodies to `[wheel]`;
 - armature: `[drive] rotor_inertia` = a / G² (mean of the two wheels) and
   `[arm_joint.X] rotor_inertia`; friction: `[drive] coulomb, viscous` (mean of
-  the wheels), `[arm_joint.X] coulomb, viscous`; `[base] rolling_resistance`;
+  the wheels), `[arm_joint.X] coulomb, viscous` (a `stiction` keeps its ratio
+  to `coulomb`: the static level cannot be identified from motion);
+  `[base] rolling_resistance`;
 - the payload: `[payload] mass, com, inertia` (tool frame).
 
 A body whose corrected parameters are not physical keeps the description's
@@ -26,7 +28,16 @@ import xml.etree.ElementTree as ET
 import numpy as np
 import pinocchio as pin
 
-__all__ = ["corrected_description"]
+__all__ = ["corrected_description", "writable_parts"]
+
+
+def _keep_static_ratio(table, old_coulomb):
+    """A `stiction` (static level, not identifiable from motion) keeps its ratio
+    to the identified kinetic level `coulomb`, and never falls below it."""
+    if "stiction" not in table:
+        return
+    ratio = table["stiction"] / old_coulomb if old_coulomb > 0.0 else 1.0
+    table["stiction"] = max(ratio * table["coulomb"], table["coulomb"])
 
 
 def _params(theta, params, i):
@@ -73,6 +84,27 @@ def _set_link_inertia(link, I):
                                     zip(("ixx", "iyy", "izz", "ixy", "ixz", "iyz"), vals)})
 
 
+def writable_parts(robot, params):
+    """{body index: π (10,)} of the part of each body that the identified change
+    is written into: the chassis of [base] (the base body minus the arm's links
+    fixed to it), a wheel, an arm joint's child link (the joint body minus links
+    fixed to it), the payload.  Only parts with mass are adjustable."""
+    d = robot.description
+    root = ET.fromstring(d.arm_urdf.read_text(encoding="utf-8"))
+    links = {l.get("name"): l for l in root.findall("link")}
+    child = {j.get("name"): j.find("child").get("link") for j in root.findall("joint")}
+    out = {}
+    for i, body in enumerate(params.bodies):
+        if body == "base":
+            b = d.base
+            out[i] = _inertia(b.mass, b.com, b.inertia).toDynamicParameters()
+        elif body in ("wheel_right", "wheel_left"):
+            out[i] = params.prior[10 * i:10 * i + 10].copy()
+        elif body in child and child[body] in links:
+            out[i] = _urdf_link_inertia(links[child[body]]).toDynamicParameters()
+    return {i: pi for i, pi in out.items() if pi[0] > 0.0}
+
+
 def corrected_description(ident, doc, urdf_text):
     """(doc, urdf_text, kept) of the identified robot.
 
@@ -83,7 +115,7 @@ def corrected_description(ident, doc, urdf_text):
     import copy
 
     robot, params, fit = ident.robot, ident.params, ident.fit
-    theta, prior = fit.theta, params.prior
+    theta, prior = ident.theta, params.prior
     bad = {b for b, _ in ident.consistency}
     kept = sorted(bad)
     doc = copy.deepcopy(doc)
@@ -129,7 +161,7 @@ def corrected_description(ident, doc, urdf_text):
 
 def _drive_terms(ident, doc, kept):
     """Armature, friction and rolling resistance into [drive], [arm_joint.X], [base]."""
-    robot, params, theta = ident.robot, ident.params, ident.fit.theta
+    robot, params, theta = ident.robot, ident.params, ident.theta
 
     def value(name):
         v = float(theta[params.names.index(name)])
@@ -143,13 +175,17 @@ def _drive_terms(ident, doc, kept):
     arm_names = {params.names[col].rsplit(".", 1)[0]: col for _, col in params.armature}
     wheel_a = [value(f"{w}.armature") for w in ("wheel_right", "wheel_left")]
     drive["rotor_inertia"] = 0.5 * sum(wheel_a) / G ** 2
+    old = float(drive.get("coulomb", 0.0))
     for kind in ("coulomb", "viscous"):
         drive[kind] = 0.5 * sum(value(f"{w}.{kind}") for w in ("wheel_right", "wheel_left"))
+    _keep_static_ratio(drive, old)
     joints = doc.setdefault("arm_joint", {})
-    for name in robot.arm_joint_names:
+    for k, name in enumerate(robot.arm_joint_names):
         entry = joints.setdefault(name, {})
+        old = float(entry.get("coulomb", robot.coulomb[2 + k]))
         for kind in ("coulomb", "viscous"):
             entry[kind] = value(f"{name}.{kind}")
+        _keep_static_ratio(entry, old)
         if name in arm_names:
             a = value(f"{name}.armature")
             ratio = float(entry.get("gear_ratio", 1.0))

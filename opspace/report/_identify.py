@@ -55,7 +55,7 @@ def identify_summary(ident, logs):
            "not_physical_kept": [{"body": b, "problem": why} for b, why in ident.consistency],
            "cautions": list(CAUTIONS)}
     if p.payload is not None:
-        th = ident.fit.theta[p.payload]
+        th = ident.theta[p.payload]
         m = float(th[0])
         out["payload"] = {"mass": _q(m, "kg"),
                           "mass_prior": _q(float(p.prior[p.payload][0]), "kg"),

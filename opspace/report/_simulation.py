@@ -21,10 +21,15 @@ __all__ = ["SIMULATION_ASSUMPTIONS", "simulation_html", "simulation_text",
 SIMULATION_ASSUMPTIONS = (
     "Rigid bodies; wheels roll without slip or side slip (the reduced, nonholonomic model); "
     "the chassis stays on the ground (the ZMP and loads are checked afterwards, not fed back).",
-    "Friction: Coulomb f_C sign(ν) without stiction, viscous f_v ν, and rolling resistance "
-    "with the static contact loads of each step.",
-    "Pick: a soft, perfectly plastic catch of a payload at rest (generalized momentum kept); "
-    "release: the velocities are kept.",
+    "Friction: stick-slip (Karnopp 1985, decided at each step's start: static level "
+    "`stiction`, kinetic level `coulomb`, a stuck coordinate held exactly), viscous f_v ν, "
+    "and rolling resistance with the static contact loads of each step.",
+    "Joint position limits are inelastic hard stops (a plastic impulse, then held while "
+    "pushed); hitting one, a speed above its limit, a negative tip-over margin, traction use "
+    "above 1 (slip is found, not simulated) or a fast pick make the status say so.",
+    "Pick: a soft, perfectly plastic catch of a payload at rest (generalized momentum kept), "
+    "its weight taken up at once or over the scenario's load_transfer time; release: the "
+    "velocities are kept.",
     "Efforts are clipped to their limits; the controller is sampled at its rate and its "
     "output held (zero-order hold).",
 )
@@ -37,9 +42,19 @@ def simulation_text(run, result, *, compare=None):
     """
     sc = run.scenario
     s = result.summary()
-    lines = [f"{sc.name}: {result.status} ({s['duration']['value']:.2f} s simulated, "
+    lines = [f"{sc.name}: {result.status.upper().replace('_', '-')} "
+             f"({s['duration']['value']:.2f} s simulated, "
              f"{result.integrator}, step {result.dt * 1e3:g} ms, control {1 / result.control_period:g} Hz, "
              f"{s['loop']} loop)"]
+    if result.status != "completed":
+        lines.append(result.message)
+    lines.append(_switches(s))
+    pick = s.get("pick_relative_speed")
+    if pick:
+        lim = pick["limit"]["value"]
+        lines.append(f"tool speed relative to the payload at the pick (t = "
+                     f"{pick['time']['value']:.3f} s): {pick['speed']['value']:.3g} m/s"
+                     + (f" (limit {lim:g} m/s)" if lim is not None else ""))
     e = s.get("tool_position_error")
     if e:
         lines.append(f"tool position error: RMS {e['rms']['value'] * 1e3:.2f} mm, peak "
@@ -77,6 +92,17 @@ def simulation_text(run, result, *, compare=None):
     return "\n".join(lines)
 
 
+def _switches(s):
+    """One line: which friction ran in the plant and in the controller."""
+    plant = {True: "stick-slip friction on", False: "friction off", None: "friction ?"}
+    ff = {True: "friction feed-forward on", False: "friction feed-forward off",
+          None: "no friction feed-forward"}
+    stops = {True: "joint stops on", False: "joint stops off", None: "joint stops ?"}
+    return (f"plant: {plant[s.get('plant_friction')]}, {stops[s.get('joint_stops')]} "
+            f"(impulse loss {s['impulse_loss']['value']:.3g} J); controller: "
+            f"{ff[s.get('friction_feedforward')]}")
+
+
 def simulation_html(run, result, images, *, compare=None):
     """The HTML page (str) of a run: verdict, tracking, efforts against their
     limits, stability, energy, the figures and the animation, the assumptions
@@ -99,7 +125,8 @@ def simulation_html(run, result, images, *, compare=None):
             f"; effort limits reached by: {', '.join(sat) if sat else 'none'}")
         page.verdict("completed", message, cls="fail" if sat else "pass")
     else:
-        page.verdict("stopped", result.message, cls="fail")
+        page.verdict(result.status.replace("_", "-"), result.message, cls="fail")
+    page.para(_switches(s), cls="meta")
     page.caution(CAUTIONS)
 
     page.heading("Tracking")
@@ -213,6 +240,8 @@ def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True
         summary["with_payload_mass_error"] = {
             "payload_mass_error": {"value": err, "unit": "1"},
             **{k: v for k, v in other.summary().items() if k == "tool_position_error"}}
+    if "step_check" in result.extra:
+        summary["step_check"] = result.extra["step_check"]
     if result.extra.get("contact") is not None:
         from ._contact import contact_summary
         summary["contact"] = contact_summary(result.extra["contact"])

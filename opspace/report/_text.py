@@ -18,7 +18,9 @@ def losses(robot):
     """Which losses the model includes, in words."""
     parts = []
     if np.any(robot.coulomb) or np.any(robot.viscous):
-        parts.append("joint/wheel Coulomb and viscous friction")
+        parts.append("joint/wheel Coulomb and viscous friction"
+                     + (" (static above kinetic on some: the simulation's stick-slip)"
+                        if np.any(robot.stiction > robot.coulomb) else ""))
     if robot.rolling_resistance:
         parts.append(f"rolling resistance C_rr = {robot.rolling_resistance:g}")
     return ", ".join(parts) if parts else "none (pure rigid-body model)"

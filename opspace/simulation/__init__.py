@@ -39,9 +39,10 @@ definite.
 
 from __future__ import annotations
 
+from ._agreement import Agreement, compare_runs
 from ._loop import simulate
 from ._result import PayloadEvent, SimulationError, SimulationResult
 from ._scenario import ScenarioRun, run_scenario
 
-__all__ = ["PayloadEvent", "ScenarioRun", "SimulationError", "SimulationResult", "run_scenario",
-           "simulate"]
+__all__ = ["Agreement", "PayloadEvent", "ScenarioRun", "SimulationError", "SimulationResult",
+           "compare_runs", "run_scenario", "simulate"]

@@ -5,75 +5,78 @@ RK4 and semi-implicit Euler, payload events, blow-up detection, the recorder
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import math
 
 import numpy as np
 import pinocchio as pin
 from scipy.linalg import lapack
 
-from ..dynamics import bias_forces, compiled_plant, coulomb_viscous, mass_matrix, rolling_loads
+from ..dynamics import StickSlip, bias_forces, compiled_plant, mass_matrix, solve_spd
 from ..errors import ModelError
 from ._result import SimulationError, SimulationResult
+from ._verdict import findings, verdict
 
 __all__ = ["simulate"]
 
 
 class _Plant:
-    """Forward dynamics of the free coordinates, written for the inner loop."""
+    """Forward dynamics of the free coordinates, written for the inner loop; the
+    stick-slip friction and the joint stops (`opspace.dynamics._stick_slip`)
+    decide, at each step's start, which coordinates are held."""
 
-    def __init__(self, robot, locked, friction):
+    def __init__(self, robot, locked, friction, stops=True):
         self.robot, self.model, self.data = robot, robot.model, robot.model.createData()
         self.S, self.St = robot.S, robot.St
-        self.free = np.flatnonzero(~locked)
-        self.all_free = bool(np.all(~locked))
-        self.friction = friction
-        self.rolling = friction and robot.rolling_resistance > 0.0
         self.nv = robot.nv
-        self._loads = None
+        self.ss = StickSlip(robot, locked, friction=friction, stops=stops)
 
-    def start_step(self, q):
-        """Freeze the static contact loads of the rolling resistance for one step."""
-        if self.rolling:
-            self._rolling = rolling_loads(self.robot, q).wheel_efforts
+    @property
+    def free(self):
+        return np.flatnonzero(self.ss.free)
+
+    def begin(self, q, nu, Q, Mh=None):
+        """Start a step: stops, impulses and the stuck set; ν̇ at the start."""
+        return self.ss.begin(self, q, nu, Q, Mh)
 
     def mass(self, q):
         return mass_matrix(self.robot, q, self.data)
 
-    def accel(self, q, nu, Q):
-        """ν̇ (nv,) at (q, ν) under efforts Q; ModelError if M is not PD."""
-        return self.accel_from(mass_matrix(self.robot, q, self.data),
-                               bias_forces(self.robot, q, nu, self.data), nu, Q)
+    def bias(self, q, nu):
+        """h = c + g (nv,) at (q, ν)."""
+        return bias_forces(self.robot, q, nu, self.data)
 
-    def accel_from(self, M, h, nu, Q):
-        """ν̇ from the reduced M and h = c + g already computed at (q, ν)."""
-        rhs = Q - h
-        if self.friction:
-            rhs -= coulomb_viscous(self.robot, nu)
-            if self.rolling:
-                f0, f1 = self._rolling(nu)
-                rhs[0] -= f0
-                rhs[1] -= f1
-        if self.all_free:
-            _, x, info = lapack.dposv(M, rhs)
-            if info:
-                raise ModelError(f"mass matrix not positive definite (LAPACK info={info})")
-            return x
-        f = self.free
-        _, x, info = lapack.dposv(M[np.ix_(f, f)], rhs[f])
-        if info:
-            raise ModelError(f"mass matrix not positive definite (LAPACK info={info})")
+    def accel(self, q, nu, Q):
+        """ν̇ (nv,) at (q, ν) under efforts Q inside a step (the held set and the
+        friction directions of its start); ModelError if M is not PD."""
+        rhs = Q - self.bias(q, nu) - self.ss.stage_friction(nu)
+        M = self.mass(q)
+        free = self.ss.free
         out = np.zeros(self.nv)
-        out[f] = x
+        if free.all():
+            out[:] = solve_spd(M, rhs)
+        elif free.any():
+            out[free] = solve_spd(M[np.ix_(free, free)], rhs[free])
         return out
 
 
-def _apply_event(event, robot, plant, controller_robot, q, nu):
-    """Change the payload; returns ν⁺ (module docstring: momentum kept on pick)."""
+def _payload_point(robot, data, q, com):
+    """J_p (3, nv): the reduced Jacobian of the tool-fixed point at `com` (tool
+    frame, m), world-aligned: v_p = v + ω × r = (J_v − [r]× J_ω) S ν, r = R c."""
+    J6 = pin.computeFrameJacobian(robot.model, data, q, robot.tool_frame_id,
+                                  pin.LOCAL_WORLD_ALIGNED)
+    r = data.oMf[robot.tool_frame_id].rotation.dot(np.asarray(com, float))
+    return (J6[:3] - pin.skew(r).dot(J6[3:])).dot(robot.S)
+
+
+def _apply_event(event, robot, plant, controller_robot, q, nu, free):
+    """Change the payload; returns ν⁺ (module docstring: momentum kept on pick).
+    free: indices of the coordinates that may move (not locked, stuck or at a stop)."""
     if event.kind == "pick":
         M_old = plant.mass(q)
         robot.attach_payload(event.payload)
         M_new = plant.mass(q)
-        f = plant.free
+        f = free
         nu = nu.copy()
         _, x, info = lapack.dposv(M_new[np.ix_(f, f)], M_old[np.ix_(f, f)].dot(nu[f]))
         if info:
@@ -91,7 +94,7 @@ def _apply_event(event, robot, plant, controller_robot, q, nu):
 def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_period=None,
              integrator="rk4", friction=True, locked=None, events=(), record_every=1,
              blowup=10.0, stability=True, controller_robot=None, progress=None,
-             compiled=None):
+             compiled=None, stops=True):
     """Integrate the robot's reduced dynamics under a sampled controller.
 
     Parameters
@@ -106,7 +109,8 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     duration : s;  q0 : (nq,);  nu0 : (nv,) default zeros
     dt : integration step, s;  control_period : s, a multiple of dt (default dt)
     integrator : "rk4" | "euler"
-    friction : include Coulomb, viscous friction and rolling resistance
+    friction : include the stick-slip (static and kinetic), viscous friction and
+        rolling resistance (`opspace.dynamics._stick_slip`)
     locked : (nv,) bool or None          coordinates held still (rate 0)
     events : sequence of PayloadEvent
     record_every : keep every k-th step
@@ -120,6 +124,8 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
         per step) when it is available (None) or must be (True: RuntimeError
         if it is not); False: the NumPy reference loop (same equations; the
         tests hold the two to round-off).
+    stops : the arm joints stop at their position limits (inelastic hard stops,
+        `opspace.dynamics._stick_slip`); False lets them pass
 
     Returns
     -------
@@ -156,10 +162,10 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
     nu[locked] = 0.0
     any_locked = bool(locked.any())
     events = sorted(events, key=lambda e: e.t)
-    plant = _Plant(robot, locked, friction)
+    plant = _Plant(robot, locked, friction, stops)
     kernel = None
     if compiled is None or compiled:
-        kernel = compiled_plant(robot, locked, friction)
+        kernel = compiled_plant(robot, locked, friction, stops)
         if kernel is None and compiled:
             raise RuntimeError("the compiled simulation kernel (opspace._kernel) is not "
                                "available (not built, or a joint mimics another): reinstall "
@@ -184,11 +190,23 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
             kept.enter_context(controller_robot.kept())
         try:
             t_event = events[0].t - 1e-12 if events else math.inf
+            pick = transfer = None
             held = robot.payload is not None
             for step in range(n_steps + 1):
                 t = step * dt
                 while t >= t_event:
-                    nu = _apply_event(events[k_event], robot, plant, controller_robot, q, nu)
+                    ev = events[k_event]
+                    if ev.kind == "pick":
+                        J_p = _payload_point(robot, plant.data, q, ev.payload.com)
+                        pick = (ev.t, float(np.linalg.norm(J_p.dot(nu))), ev.speed_limit)
+                        transfer = (ev.t, ev.transfer, ev.payload) if ev.transfer > 0 else None
+                    else:
+                        transfer = None
+                    stuck = (plant.ss.held if kernel is None
+                             else _kernel_state(kernel, robot.nv)[0] != 0)
+                    free = np.flatnonzero(~(stuck | locked))
+                    nu = _apply_event(events[k_event], robot, plant, controller_robot, q, nu,
+                                      free)
                     k_event += 1
                     t_event = events[k_event].t - 1e-12 if k_event < len(events) else math.inf
                     held = robot.payload is not None
@@ -206,14 +224,16 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
                                         f"{Qd[i]:.4g}, more than {blowup:g} x its limit "
                                         f"{limit[i]:g}")
                 # the state before the step is recorded; ν̇ at it lands in `out`
-                out = rec.add(t, q, nu, Q, info, held) if step % record_every == 0 else scratch
+                out = (rec.add(t, q, nu, Q, info, held, step % n_ctrl == 0)
+                       if step % record_every == 0 else scratch)
+                Qp = Q if transfer is None else Q + _support(robot, plant.data, q, t, transfer)
                 if kernel is not None:         # one compiled call: q, ν advance in place
                     if step == n_steps:
-                        code = kernel.accel(model, plant.data, q, nu, Q, out)
+                        code = kernel.accel(model, plant.data, q, nu, Qp, out)
                     elif integrator == "rk4":
-                        code = kernel.rk4(model, plant.data, q, nu, Q, h, out)
+                        code = kernel.rk4(model, plant.data, q, nu, Qp, h, out)
                     else:
-                        code = kernel.euler(model, plant.data, q, nu, Q, h, out)
+                        code = kernel.euler(model, plant.data, q, nu, Qp, h, out)
                     if code == 1:
                         raise ModelError("mass matrix not positive definite")
                     if code == 2:
@@ -221,15 +241,13 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
                     if step == n_steps:
                         break
                 else:
-                    plant.start_step(q)
                     Mh = getattr(info, "Mh", None) if step % n_ctrl == 0 else None
-                    nu_dot = (plant.accel(q, nu, Q) if Mh is None
-                              else plant.accel_from(*Mh, nu, Q))
+                    nu_dot = plant.begin(q, nu, Qp, Mh)
                     out[:] = nu_dot
                     if step == n_steps:
                         break
                     if integrator == "rk4":
-                        q, nu = _rk4(model, plant, S_h, q, nu, nu_dot, Q, h)
+                        q, nu = _rk4(model, plant, S_h, q, nu, nu_dot, Qp, h)
                     else:
                         nu = nu + h * nu_dot
                         q = pin.integrate(model, q, S.dot(nu) * h)
@@ -240,12 +258,27 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
         except (_Stop, ModelError) as exc:
             status, message = "stopped", f"stopped at t = {t:.4f} s: {exc}"
         robot_payload_end = robot.payload
+    if kernel is not None:
+        _, first_stop, stop_side, loss = _kernel_state(kernel, robot.nv)
+    else:
+        first_stop, stop_side, loss = plant.ss.first_stop, plant.ss.stop_side, plant.ss.loss
+    stops_hit = [(robot.coordinate_names[i], float(first_stop[i] * dt),
+                  "upper" if stop_side[i] > 0 else "lower")
+                 for i in np.argsort(first_stop, kind="stable") if first_stop[i] >= 0]
     picked = next((e.payload for e in events if e.kind == "pick"), robot_payload_end)
     result = rec.result(robot, status, message, dt, control_period, integrator,
                         stability=stability, end_payload=picked,
-                        loop="compiled" if kernel is not None else "numpy")
+                        loop="compiled" if kernel is not None else "numpy",
+                        plant={"friction": bool(friction), "stops": bool(stops),
+                               "impulse_loss": float(loss), "stops_hit": stops_hit,
+                               **({"pick": pick} if pick is not None else {})})
     if status != "completed":
         raise SimulationError(message, time=t, cause=message, result=result)
+    found = findings(result, robot, pick=pick)
+    if found:
+        status, message = verdict(found)
+        result = dataclasses.replace(result, status=status, message=message)
+        result.extra["findings"] = [f.to_dict() for f in found]
     if progress:
         progress(n_steps, n_steps)
     return result
@@ -253,6 +286,25 @@ def simulate(robot, control=None, *, duration, q0, nu0=None, dt=1e-3, control_pe
 
 class _Stop(Exception):
     pass
+
+
+def _support(robot, data, q, t, transfer):
+    """Q (nv,) of the support still under the payload during a load transfer:
+    the upward force (1 − (t − t₀)/T) m g at its centre of mass, J_pᵀ F."""
+    t0, T, payload = transfer
+    share = 1.0 - (t - t0) / T
+    if share <= 0.0:
+        return np.zeros(robot.nv)
+    F = np.array([0.0, 0.0, share * payload.mass * -robot.model.gravity.linear[2]])
+    return _payload_point(robot, data, q, payload.com).T.dot(F)
+
+
+def _kernel_state(kernel, nv):
+    """(held (nv,), first stop step (nv,), its side (nv,), impulse loss J) of a
+    compiled plant."""
+    out = np.empty(3 * nv + 1)
+    kernel.state(out)
+    return out[:nv], out[nv:2 * nv].astype(int), out[2 * nv:3 * nv].astype(int), out[-1]
 
 
 def _rk4(model, plant, S_h, q, nu, a1, Q, h):
@@ -291,6 +343,7 @@ class _Recorder:
         self.nu_dot = np.empty((n, self.nv))
         self.sat = np.zeros((n, self.nv), bool)
         self.payload = np.zeros(n, bool)
+        self.fresh = np.zeros(n, bool)
         self.table = None
         self.i = 0
 
@@ -308,9 +361,11 @@ class _Recorder:
         self.q, self.nu, self.Q, self.Qd, self.error, self.target = cols
         self._no_target, self._no_error, self.k = np.full(3, np.nan), np.full(k, np.nan), k
 
-    def add(self, t, q, nu, Q, info, has_payload):
-        """Record a sample; returns its ν̇ row, for the caller to fill."""
+    def add(self, t, q, nu, Q, info, has_payload, fresh=True):
+        """Record a sample (fresh: the controller ran at it, so its target is the
+        one of this instant); returns its ν̇ row, for the caller to fill."""
         i = self.i
+        self.fresh[i] = fresh
         if self.table is None or (info is not None and len(info.error) != self.k):
             self._columns(0 if info is None else len(info.error))
         self.t[i] = t
@@ -326,7 +381,7 @@ class _Recorder:
         return self.nu_dot[i]
 
     def result(self, robot, status, message, dt, control_period, integrator, *, stability,
-               end_payload, loop):
+               end_payload, loop, plant=None):
         n = self.i
         sl = slice(0, n)
         if self.table is None:
@@ -355,7 +410,8 @@ class _Recorder:
             tool_rotation=rot, target_position=self.target[sl].copy(), error=err, status=status,
             message=message, dt=dt, control_period=control_period, integrator=integrator,
             coordinate_names=tuple(robot.coordinate_names), effort_limit=robot.effort_limit.copy(),
-            stability=track, extra={"prismatic": prismatic, "loop": loop})
+            stability=track, extra={"prismatic": prismatic, "loop": loop, "plant": plant or {},
+                                    "control_sample": self.fresh[sl].copy()})
 
 
 def _stability(robot, qs, nus, nu_dots, Qs, payload, end_payload):

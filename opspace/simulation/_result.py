@@ -28,12 +28,22 @@ class PayloadEvent:
     """At time t (s): "pick" attaches `payload` (a `Payload`) to the plant at
     its tool frame, "release" detaches it.  `estimate` is the payload the
     controller's own model is given at the same instant (None: the same; only
-    used when the controller has a robot model of its own)."""
+    used when the controller has a robot model of its own).
+
+    Pick only: `transfer` s, the load-transfer time: the payload's weight is
+    taken up linearly over it (the support it rested on pushes up with
+    (1 − (t − t_pick)/transfer) m g at its centre of mass until then; 0: at
+    once); `speed_limit` m/s, the largest speed of the tool's payload point
+    relative to the payload at rest that counts as a gentle pick (faster: the
+    run's status says "fast_pick").
+    """
 
     t: float
     kind: str
     payload: object = None
     estimate: object = None
+    transfer: float = 0.0
+    speed_limit: float = math.inf
 
     def __post_init__(self):
         if self.kind not in ("pick", "release"):
@@ -42,6 +52,10 @@ class PayloadEvent:
             raise ValueError(f"event time must be finite and >= 0 s, got {self.t}")
         if self.kind == "pick" and self.payload is None:
             raise ValueError("a pick event needs a `payload`")
+        if not (math.isfinite(self.transfer) and self.transfer >= 0):
+            raise ValueError(f"`transfer` must be finite and >= 0 s, got {self.transfer}")
+        if not self.speed_limit > 0:
+            raise ValueError(f"`speed_limit` must be > 0 m/s, got {self.speed_limit}")
 
 
 @dataclass(frozen=True, eq=False)
@@ -52,8 +66,11 @@ class SimulationResult:
     Q_demand (n, nv) before the limits; saturated (n, nv) bool; payload (n,)
     bool (held); tool_position (n, 3) m and tool_rotation (n, 3, 3) in the
     world; target_position (n, 3) m (nan without a target); error (n, k) task
-    error m / rad (nan without a controller); status "completed" or "stopped";
-    message; dt s; control_period s; integrator; coordinate_names;
+    error m / rad (nan without a controller); status "completed", "stopped" (a
+    blow-up), or the kind of the earliest finding of a run that reached its end
+    but was not fine: "tip_over", "slip", "joint_limit", "velocity_limit",
+    "fast_pick" (`opspace.simulation._verdict`); message (each finding's time
+    and cause); dt s; control_period s; integrator; coordinate_names;
     effort_limit (nv,); stability: a `StabilityTrack` over the samples, or None.
     """
 
@@ -111,11 +128,18 @@ class SimulationResult:
                 "limit": _q(float(self.effort_limit[i]) if np.isfinite(self.effort_limit[i])
                             else None, unit),
                 "saturated_share": _q(float(self.saturated[:, i].mean()), "1")}
+        # the tracking errors at the controller's samples only: in between, the
+        # recorded target is the last sample's (zero-order hold), the tool has moved on
+        fresh = self.extra.get("control_sample")
+        fresh = np.ones(len(t), bool) if fresh is None or not fresh.any() else fresh
         for key, e, unit in (("tool_position_error", self.position_error, "m"),
                              ("tool_orientation_error", self.orientation_error, "rad")):
-            if e is not None and np.any(np.isfinite(e)):
-                ok = np.isfinite(e)
-                out[key] = {"rms": _q(float(math.sqrt(w[ok].dot(e[ok] ** 2) / T)), unit),
+            ok = None if e is None else np.isfinite(e) & fresh
+            if ok is not None and ok.any():
+                tk = t[ok]
+                Tk = max(tk[-1] - tk[0], 1e-300)
+                out[key] = {"rms": _q(float(math.sqrt(_trapezoid_weights(tk).dot(e[ok] ** 2)
+                                                      / Tk)), unit),
                             "peak": _q(float(np.max(e[ok])), unit)}
         P = self.Q[:, :2] * self.nu[:, :2]
         out["wheel_energy_drawn"] = {name: _q(float(w.dot(np.maximum(P[:, i], 0.0))), "J")
@@ -130,6 +154,17 @@ class SimulationResult:
                 for sp in lift_off_spans(self.t[:len(self.stability.margin)],
                                          self.stability.loads.lifted[:, :2],
                                          self.coordinate_names[:2])]
+        plant = self.extra.get("plant", {})
+        out["plant_friction"] = plant.get("friction")
+        out["friction_feedforward"] = self.extra.get("feedforward")
+        out["joint_stops"] = plant.get("stops")
+        out["impulse_loss"] = _q(plant.get("impulse_loss", 0.0), "J")
+        out["findings"] = self.extra.get("findings", [])
+        if "pick" in plant:
+            t_pick, speed, limit = plant["pick"]
+            out["pick_relative_speed"] = {"time": _q(t_pick, "s"), "speed": _q(speed, "m/s"),
+                                          "limit": _q(limit if math.isfinite(limit) else None,
+                                                      "m/s")}
         return out
 
     def to_npz(self, path):

@@ -115,7 +115,9 @@ class ScenarioRun:
                                   f"{robot.description.path.name} has no [payload]")
             estimate = Payload(payload.mass * (1.0 + self.payload_mass_error), payload.com,
                                payload.inertia)
-            self.events.append(PayloadEvent(sc.pick, "pick", payload, estimate))
+            self.events.append(PayloadEvent(sc.pick, "pick", payload, estimate,
+                                            transfer=sc.load_transfer,
+                                            speed_limit=sc.pick_speed_limit))
             if sc.release is not None:
                 self.events.append(PayloadEvent(sc.release, "release"))
 
@@ -131,14 +133,20 @@ class ScenarioRun:
         # saturated: clipped, |Q_demand| > limit  (Q = clip(Q_demand) differs from it)
         return s.Q, _StepInfo(s.Q_demand, s.Q != s.Q_demand, s.error, s.target_position, Mh)
 
-    def run(self, *, integrator=None, progress=None, stability=True, compiled=None):
-        """SimulationResult of the scenario (`compiled`: see `simulate`)."""
+    def run(self, *, integrator=None, progress=None, stability=True, compiled=None, step=None):
+        """SimulationResult of the scenario (`compiled`: see `simulate`; `step`: an
+        integration step s other than the scenario's, a whole fraction of its
+        control period, e.g. for a step-halving check)."""
         sc = self.scenario
-        result = simulate(self.robot, self.control, duration=sc.duration, q0=self.q0, dt=sc.step,
-                          control_period=sc.control_period, integrator=integrator or sc.integrator,
-                          friction=sc.friction, events=self.events, stability=stability,
+        result = simulate(self.robot, self.control, duration=sc.duration, q0=self.q0,
+                          dt=sc.step if step is None else step,
+                          control_period=sc.control_period,
+                          integrator=integrator or sc.integrator, friction=sc.friction,
+                          events=self.events, stability=stability,
                           controller_robot=self.controller_robot, progress=progress,
-                          compiled=self.compiled if compiled is None else compiled)
+                          compiled=self.compiled if compiled is None else compiled,
+                          stops=sc.joint_stops)
+        result.extra["feedforward"] = bool(self.controller.friction_feedforward)
         if self.robot.description.contact_points:
             result.extra["contact"] = self.contact_check(result)
         return result
