@@ -173,6 +173,11 @@ class MobileManipulator:
             if f.name in renamed:
                 f.name = renamed[f.name]
                 model.frames[i] = f
+        for name, (parent, xyz, R) in (d.whole.frames if d.whole is not None else {}).items():
+            if not model.existFrame(name):    # a whole URDF's chassis and wheel links
+                fid = model.getFrameId(parent)
+                model.addFrame(pin.Frame(name, model.frames[fid].parentJoint, fid,
+                                         pin.SE3(np.array(R), np.array(xyz)), pin.FrameType.BODY))
         model.gravity = pin.Motion(np.array([0.0, 0.0, -GRAVITY]), np.zeros(3))
         return model
 
@@ -280,7 +285,7 @@ class MobileManipulator:
         elif isinstance(arm, str):
             qa = self.pose(arm)
         else:
-            qa = self._arm_values("arm", arm)
+            qa = self.arm_vector("arm", arm)
         q = np.empty(self.model.nq)
         q[:4] = (x, y, math.cos(theta), math.sin(theta))
         q[4:6] = phi
@@ -292,7 +297,7 @@ class MobileManipulator:
                 q[iq:iq + 2] = (math.cos(value), math.sin(value))
         return q
 
-    def _arm_values(self, name, values):
+    def arm_vector(self, name, values):
         """`values` as a finite vector (n_arm,); the message names the joints."""
         x = np.asarray(values, dtype=float)
         joints = ", ".join(self.arm_joint_names)

@@ -19,7 +19,8 @@ from ._duty import (DutyCycle, Segment, blend_speed, check_against_robot, load_d
 from ._motion_log import MotionLog, load_motion_log
 from ._robot import (ArmJointDrive, BaseSpec, DriveSpec, Mimic, Payload, RobotDescription,
                      WheelSpec, arm_joint_names, arm_position_limits, independent_joint_names,
-                     load_arm, load_arm_urdf, load_description, read_payload)
+                     load_arm, load_arm_urdf, load_description, read_payload, robot_urdf)
+from ._sources import expand_xacro
 from ._scenario import Scenario, check_scenario, load_scenario
 from ._toml import (MAX_GEAR_RATIO, PLAUSIBLE, ROBOT_SIZE, Entry, Section, check_file,
                     check_inertia, check_output_dir, inertia_matrix, option_number,
@@ -43,6 +44,7 @@ __all__ = [
     "DriveSpec",
     "DutyCycle",
     "Entry",
+    "expand_xacro",
     "Gearbox",
     "independent_joint_names",
     "inertia_matrix",
@@ -76,6 +78,7 @@ __all__ = [
     "resolve_mesh",
     "resolve_pose",
     "ROBOT_SIZE",
+    "robot_urdf",
     "RobotDescription",
     "Scenario",
     "Section",

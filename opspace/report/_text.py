@@ -26,6 +26,28 @@ def losses(robot):
     return ", ".join(parts) if parts else "none (pure rigid-body model)"
 
 
+def _mimic_lines(robot):
+    return [f"mimic: {f} = {m.multiplier:g} x {m.leader} {'-' if m.offset < 0 else '+'} "
+            f"{abs(m.offset):g} (follows its leader; not a coordinate)"
+            for f, m in robot.mimic.items()]
+
+
+def _whole_lines(d):
+    """What the whole-robot URDF gave: each value and where it came from, and
+    the meshes that were not found (they only matter for drawing)."""
+    w = d.whole
+    if w is None:
+        return []
+    lines = ["", f"derived from {w.urdf.name} (override any of them in {d.path.name}):"]
+    width = max(len(x.key) for x in w.derived)
+    lines += [f"  {x.key:<{width}} = {x.value}   <- {x.source}" for x in w.derived]
+    missing = [(link, uri) for link, uri, _, ok in w.meshes if not ok]
+    lines.append(f"meshes: {len(w.meshes)} referenced, {len(missing)} not found"
+                 + (" (drawing only): " + ", ".join(f"{uri} (link '{link}')"
+                                                    for link, uri in missing) if missing else ""))
+    return lines
+
+
 def check_summary(robot):
     """Text summary of a loaded robot for a drive engineer (the `check` command).
 
@@ -33,7 +55,8 @@ def check_summary(robot):
     neutral configuration and at every named pose of the description.
     """
     d = robot.description
-    lines = [f"{robot.name}: description OK ({d.path.name}, arm {d.arm_urdf.name})", ""]
+    urdf = f"arm {d.arm_urdf.name}" if d.whole is None else f"whole-robot URDF {d.arm_urdf.name}"
+    lines = [f"{robot.name}: description OK ({d.path.name}, {urdf})", ""]
     lines.append(f"reduced coordinates ({robot.nv}): " + ", ".join(robot.coordinate_names))
     lines.append(f"Pinocchio model: nq = {robot.model.nq}, nv = {robot.model.nv}; "
                  f"tool frame '{robot.tool_frame}'")
@@ -51,6 +74,7 @@ def check_summary(robot):
     lo, hi = d.friction_range
     lines.append(f"floor: friction {lo:g} to {hi:g} (nominal {robot.ground_friction:g}); "
                  f"unevenness {d.support.unevenness * 1000:g} mm under any one contact")
+    lines += _mimic_lines(robot) + _whole_lines(d)
     lines.append("")
     poses = [("neutral (arm at zero)", robot.configuration())]
     poses += [(name, robot.configuration(arm=name)) for name in d.poses]
