@@ -88,7 +88,10 @@ def _cmd_size(args):
     from .description import check_output_dir, load_duty_cycle
     from .model import load_robot
     from .report import write_sizing_report
+    import numpy as np
+
     from .sizing import size
+    from .sizing import margin_text as pct
 
     path = _input_file(args.cycle, "CYCLE") or demo_cycle_path()
     out = check_output_dir(args.output)
@@ -102,15 +105,16 @@ def _cmd_size(args):
     progress = _Progress(not args.quiet and sys.stderr.isatty())
     try:
         result = size(duty, robot=robot, catalogue=catalogue, search=not args.no_search,
-                      progress=progress)
+                      basis=args.verdict_basis, progress=progress)
         paths = write_sizing_report(result, out, progress=lambda d, t: progress("figures", d, t))
     finally:
         progress.close()
     print(f"{result.status.upper()}: {result.message}")
     for c in result.robot_criteria:
-        unit = "" if c.unit == "1" else f" {c.unit}"
-        print(f"  {c.name:<10} {c.value:.3g}{unit} (limit {c.limit:g}{unit}), margin {c.margin:+.0%}: "
-              f"{'pass' if c.passed else 'FAIL'} — {c.note}")
+        unit = "" if c.unit in ("", "1") else f" {c.unit}"
+        value = f"{c.value:.3g}{unit}" if np.isfinite(c.value) else "unbounded"
+        print(f"  {c.name:<10} {value} (limit {c.limit:g}{unit}), margin "
+              f"{pct(c.margin, 'unbounded')}: {'pass' if c.passed else 'FAIL'} — {c.note}")
     if result.stop is not None:
         s = result.stop
         if s.deceleration > 0:
@@ -322,6 +326,13 @@ def _torque_constant(text):
 
 
 # ---------------------------------------------------------------- opspace sweep
+def _with_unit(value, unit):
+    """A figure for the console: 4 significant digits and its unit (none when
+    dimensionless)."""
+    text = f"{value:.4g}" if isinstance(value, (int, float)) else str(value)
+    return text + (f" {unit}" if unit and unit != "1" else "")
+
+
 def _cmd_sweep(args):
     from .sweep import load_sweep, progress_bar, run_sweep
 
@@ -342,12 +353,13 @@ def _cmd_sweep(args):
           f"{result.wall_time:.1f} s, {result.reused} reused, {result.retried} resubmitted)")
     x, y = sweep.pareto[0], sweep.pareto[2]
     by_id = {r.id: r for r in result.records}
+    units = {p.key: p.unit for p in sweep.parameters}
     for i in result.pareto[:5]:
         r = by_id[i]
-        values = ", ".join(f"{k} = {v:g}" if isinstance(v, float) else f"{k} = {v}"
-                           for k, v in r.values.items())
-        print(f"  on the front: {values}: {x} = {r.figures.get(x):.4g}, "
-              f"{y} = {r.figures.get(y):.4g}")
+        values = ", ".join(f"{k} = {_with_unit(v, units.get(k))}" if isinstance(v, float)
+                           else f"{k} = {v}" for k, v in r.values.items())
+        print(f"  on the front: {values}: {x} = {_with_unit(r.figures.get(x), result.units.get(x))}"
+              f", {y} = {_with_unit(r.figures.get(y), result.units.get(y))}")
     print(f"results: {result.paths['csv']}; page: {result.paths['html']}")
     print("Model estimates: apply service factors, verify on hardware, follow the applicable "
           "safety standards.")
@@ -476,6 +488,9 @@ def build_parser():
     parser = _Parser(
         prog="opspace",
         description="Dynamics of mobile manipulators: model checks, drive sizing, simulation.")
+    from . import __version__
+
+    parser.add_argument("--version", action="version", version=f"opspace {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     p = sub.add_parser("check", help="load and validate a robot description, print a summary")
     p.add_argument("robot", nargs="?", help="robot description TOML (default: the bundled demo)")
@@ -488,7 +503,12 @@ def build_parser():
     p.add_argument("--robot", help="robot description TOML instead of the cycle's (e.g. the "
                                    "one opspace identify wrote)")
     p.add_argument("--no-search", action="store_true",
-                   help="skip the worst-case arm search and the shortest-stop figure")
+                   help="skip the worst-case arm search, the envelope cases and the "
+                        "shortest-stop figure (the verdict then covers the planned cycle only)")
+    p.add_argument("--verdict-basis", choices=("envelope", "cycle"),
+                   help="envelope: a drive passes the planned cycle AND the cycle with the arm "
+                        "held at each worst-case pose; cycle: the planned cycle only "
+                        "(default: the cycle file's verdict_basis, else envelope)")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress bars")
     p.set_defaults(func=_cmd_size)
     p = sub.add_parser("simulate", help="simulate a scenario (e.g. a pick while driving) and "
@@ -626,6 +646,8 @@ def main(argv=None):
         args = parser.parse_args(argv)
     except SystemExit as exc:  # argparse printed its one-line error (or the help)
         return exc.code if isinstance(exc.code, int) else 2
+    except BrokenPipeError:    # --help or --version piped into a closed reader
+        return _pipe_closed()
     if args.command is None:
         parser.print_help()
         return 2
@@ -637,6 +659,8 @@ def main(argv=None):
     except KeyboardInterrupt:
         print("opspace: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        return _pipe_closed()
     except Exception as exc:   # a defect of opspace, not of the input: still one line
         if os.environ.get("OPSPACE_TRACEBACK"):
             raise
@@ -647,6 +671,18 @@ def main(argv=None):
 
 def _one_line(exc):
     return " ".join(str(exc).split()) or type(exc).__name__
+
+
+def _pipe_closed():
+    """The reader of our output went away (e.g. `| head`): stop quietly.
+
+    Later writes (and Python's flush at exit) go to the null device, so no
+    second error is printed; the status is 128 + SIGPIPE, as a shell reports.
+    """
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    os.dup2(devnull, sys.stdout.fileno())
+    os.close(devnull)
+    return 141
 
 
 if __name__ == "__main__":

@@ -143,6 +143,7 @@ class MobileManipulator:
         self.revision = 0  # bumped whenever the model's inertias or gravity change
         self._mass_cache = None
         self.slope = 0.0
+        self.cross_slope = 0.0
         self.contacts = (
             Contact("wheel_right", (0.0, -self.half_track), True),
             Contact("wheel_left", (0.0, self.half_track), True),
@@ -172,6 +173,11 @@ class MobileManipulator:
             if f.name in renamed:
                 f.name = renamed[f.name]
                 model.frames[i] = f
+        for name, (parent, xyz, R) in (d.whole.frames if d.whole is not None else {}).items():
+            if not model.existFrame(name):    # a whole URDF's chassis and wheel links
+                fid = model.getFrameId(parent)
+                model.addFrame(pin.Frame(name, model.frames[fid].parentJoint, fid,
+                                         pin.SE3(np.array(R), np.array(xyz)), pin.FrameType.BODY))
         model.gravity = pin.Motion(np.array([0.0, 0.0, -GRAVITY]), np.zeros(3))
         return model
 
@@ -279,7 +285,7 @@ class MobileManipulator:
         elif isinstance(arm, str):
             qa = self.pose(arm)
         else:
-            qa = self._arm_values("arm", arm)
+            qa = self.arm_vector("arm", arm)
         q = np.empty(self.model.nq)
         q[:4] = (x, y, math.cos(theta), math.sin(theta))
         q[4:6] = phi
@@ -291,7 +297,7 @@ class MobileManipulator:
                 q[iq:iq + 2] = (math.cos(value), math.sin(value))
         return q
 
-    def _arm_values(self, name, values):
+    def arm_vector(self, name, values):
         """`values` as a finite vector (n_arm,); the message names the joints."""
         x = np.asarray(values, dtype=float)
         joints = ", ".join(self.arm_joint_names)
@@ -416,20 +422,30 @@ class MobileManipulator:
         return pin.centerOfMass(self.model, self.data, q, False).copy()
 
     # ----------------------------------------------------------------- ground
-    def set_ground_slope(self, slope=0.0):
+    def set_ground_slope(self, slope=0.0, cross=0.0):
         """Tilt gravity so that the ground plane rises at `slope` rad along the
-        world +x axis (mutates the model; 0 restores flat ground).
+        world +x axis and at `cross` rad along the world +y axis (mutates the
+        model; 0, 0 restores flat ground).
 
-        The world frame stays attached to the ground (z is its normal), so a
-        ramp is gravity g⃗ = g (−sin α, 0, −cos α); a robot with heading 0
-        drives uphill, heading π downhill.
+        The world frame stays attached to the ground (z is its normal), so the
+        true vertical has the components (sin α, sin β, √(1 − sin²α − sin²β))
+        on the ground axes x, y, z (an axis that climbs at angle α has sin α of
+        the vertical on it) and gravity is g⃗ = −g times that: a ramp alone is
+        g (−sin α, 0, −cos α).  A robot with heading 0 drives uphill with its
+        left side up when both are positive.
         """
-        slope = float(slope)
-        if not (math.isfinite(slope) and abs(slope) < math.pi / 2):
-            raise ValueError(f"`slope` must be a finite angle in (-pi/2, pi/2) rad, got {slope}")
+        slope, cross = float(slope), float(cross)
+        for name, a in (("slope", slope), ("cross", cross)):
+            if not (math.isfinite(a) and abs(a) < math.pi / 2):
+                raise ValueError(f"`{name}` must be a finite angle in (-pi/2, pi/2) rad, got {a}")
+        sa, sb = math.sin(slope), math.sin(cross)
+        if sa * sa + sb * sb >= 1.0:
+            raise ValueError(f"`slope` {slope} and `cross` {cross} rad together tilt the ground "
+                             f"past vertical")
         self.model.gravity = pin.Motion(
-            np.array([-GRAVITY * math.sin(slope), 0.0, -GRAVITY * math.cos(slope)]), np.zeros(3))
+            -GRAVITY * np.array([sa, sb, math.sqrt(1.0 - sa * sa - sb * sb)]), np.zeros(3))
         self.slope = slope
+        self.cross_slope = cross
         self.revision += 1
 
     # ---------------------------------------------------------------- payload
@@ -461,15 +477,15 @@ class MobileManipulator:
     def kept(self):
         """Context in which the payload and the ground slope may be changed; both
         are restored on exit (the model is mutated meanwhile)."""
-        payload, slope = self.payload, self.slope
+        payload, slope, cross = self.payload, self.slope, self.cross_slope
         try:
             yield self
         finally:
             self.detach_payload()
             if payload is not None:
                 self.attach_payload(payload)
-            if self.slope != slope:
-                self.set_ground_slope(slope)
+            if (self.slope, self.cross_slope) != (slope, cross):
+                self.set_ground_slope(slope, cross)
 
     def detach_payload(self):
         """Remove the payload (mutates the model); no-op if none attached."""

@@ -144,3 +144,17 @@ def open_view3d(path, *, screenshot=None):
               " v.render(); return out; })()")
     return open_page(path, wait_for=".view3d[data-view3d=ready]", screenshot=screenshot,
                      evaluate=script)
+
+
+def visible_text_problems(text):
+    """What a report page's visible text (document.body.innerText) must not show:
+    "inf", "nan", a bare "−∞", a unit "1" after a number, a margin rounded to
+    "-0%".  Returns a list of (pattern, excerpts); empty when clean."""
+    import re
+
+    found = []
+    for bad in (r"\binf\b", r"\bnan\b", r"\d 1\b(?![\d.:])", r"-0%", r"[−-]∞"):
+        hits = re.findall(rf".{{0,30}}{bad}.{{0,30}}", text, flags=re.IGNORECASE)
+        if hits:
+            found.append((bad, hits[:3]))
+    return found

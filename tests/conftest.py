@@ -69,6 +69,20 @@ def urdf(*elements, name="test_arm"):
     return f'<?xml version="1.0"?>\n<robot name="{name}">\n' + "\n".join(elements) + "\n</robot>\n"
 
 
+def urdf_elements(text):
+    """A URDF's elements in document order as (tag, attributes), numbers parsed
+    and rounded to 12 digits: two texts of one tree compare equal."""
+    import xml.etree.ElementTree as ET
+
+    def value(v):
+        try:
+            return tuple(round(float(x), 12) for x in v.split())
+        except ValueError:
+            return v
+    return [(el.tag, {k: value(v) for k, v in el.attrib.items()})
+            for el in ET.fromstring(text).iter() if el.tag != "robot"]
+
+
 def base_doc(**overrides):
     """A valid description dict (the arm file is arm.urdf beside it)."""
     doc = {

@@ -242,6 +242,18 @@ def models(tmp_path):
     return tmp_path / "models"
 
 
+def robot_urdf(robot):
+    """(key, path) of the URDF a bundled robot description names: [robot]
+    arm_urdf, or a whole robot's [robot] urdf (package:// through [package_paths])."""
+    doc = _load(robot)
+    key = "urdf" if "urdf" in doc["robot"] else "arm_urdf"
+    rel = doc["robot"][key]
+    if rel.startswith("package://"):
+        pkg, _, rest = rel[len("package://"):].partition("/")
+        rel = str(Path(doc["package_paths"][pkg]) / rest)
+    return key, robot.parent / rel
+
+
 def bundled(models):
     for path in sorted(models.glob("*/*.toml")):
         kind = classify(path)
@@ -321,16 +333,18 @@ def test_every_bundled_file_broken_as_a_whole(models, stubs, tmp_path, how):
                 else [p.name]) for p, k in bundled(models)]
     for folder in {p.parent for p, _ in bundled(models)}:
         by_kind = {k: p for p, k in bundled(models) if p.parent == folder}
-        for ref, (kind, key) in {"robot": ("cycle", "[cycle] robot"),
-                                 "arm_urdf": ("robot", "[robot] arm_urdf")}.items():
+        for ref, kind in {"robot": "cycle", "urdf": "robot"}.items():
             if kind not in by_kind:
                 continue
             referrer = by_kind[kind]
-            rel = _load(referrer)[kind][ref if ref != "arm_urdf" else "arm_urdf"] \
-                if kind == "cycle" else _load(referrer)["robot"]["arm_urdf"]
-            targets.append((folder / rel, command(kind, referrer, out),
+            if kind == "cycle":
+                key, target = "[cycle] robot", folder / _load(referrer)["cycle"]["robot"]
+            else:
+                key, target = robot_urdf(referrer)
+                key = f"[robot] {key}"
+            targets.append((target, command(kind, referrer, out),
                             [referrer.name, key] if how in ("missing", "directory", "loop",
-                                                            "dangling") else [Path(rel).name]))
+                                                            "dangling") else [target.name]))
     for path, argv, names in targets:
         if argv is None:
             continue
@@ -378,7 +392,7 @@ def test_every_numeric_urdf_attribute(models, stubs):
     for robot, kind in bundled(models):
         if kind != "robot":
             continue
-        urdf = robot.parent / _load(robot)["robot"]["arm_urdf"]
+        urdf = robot_urdf(robot)[1]
         if urdf.suffix != ".urdf":
             continue
         text = urdf.read_text(encoding="utf-8")

@@ -366,5 +366,8 @@ def test_simulation_page_is_self_contained(tmp_path):
     require_browser()
     view = open_view3d(paths["report.html"], screenshot=tmp_path / "report.png")
     assert view.ok, view.problems()
+    from browser import open_page, visible_text_problems
+    text = open_page(paths["report.html"], evaluate="document.body.innerText").evaluated
+    assert not visible_text_problems(text)
     assert view.evaluated["frames"] > 50, view.evaluated   # the slider's samples
     assert view.evaluated["drawn"] > 0.005 and view.evaluated["empty"] < 1e-3, view.evaluated

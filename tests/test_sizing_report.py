@@ -101,9 +101,18 @@ def test_too_small_candidate_fails_on_torque(demo_result):
         for c in s.checks:
             assert not c.passed
             assert "peak torque" in c.failed or "speed" in c.failed
-    # and the verdict names a passing candidate that is not the smallest motor
-    assert demo_result.status == "pass"
+    # and the verdict names a candidate that is not the smallest motor; the status
+    # fails exactly when a robot-level row fails (no drive fixes those)
+    robot_fails = any(not c.passed for c in demo_result.robot_criteria)
+    assert demo_result.status == ("fail" if robot_fails else "pass")
     assert demo_result.recommended[1].motor != "M-20"
+
+
+def test_demo_recommendation_passes_each_held_pose(demo_result, tmp_path):
+    # The envelope check run literally on the demo (see test_envelope.py).
+    from test_envelope import assert_recommended_passes_every_held_pose
+    assert demo_result.basis == "envelope"
+    assert_recommended_passes_every_held_pose(demo_result, tmp_path, CYCLE)
 
 
 def test_worst_case_search_beats_the_grid_and_the_cycle(demo_result):
@@ -135,6 +144,21 @@ def test_example_runs_quick(tmp_path):
     assert (tmp_path / "report.html").is_file() and result.worst_torque is None
 
 
+def test_report_page_in_headless_chromium(demo_report, tmp_path):
+    # The page loads from its one file in a real browser: no network request, no
+    # console or page error; its visible text shows no "inf", "nan", a unit "1"
+    # or a margin rounded to "-0%".
+    from browser import open_page, require_browser
+    require_browser()
+    view = open_page(demo_report["report"], screenshot=tmp_path / "report.png",
+                     evaluate="document.body.innerText")
+    assert view.ok, view.problems()
+    text = view.evaluated
+    assert "Verdict basis" in text
+    from browser import visible_text_problems
+    assert not visible_text_problems(text)
+
+
 def test_page_draws_its_3d_view_offline(demo_report, tmp_path):
     # headless Chromium: the scene is ready, no console error, no network request,
     # and the robot covers part of the canvas (tests/browser.py)
@@ -143,5 +167,5 @@ def test_page_draws_its_3d_view_offline(demo_report, tmp_path):
     require_browser()
     view = open_view3d(demo_report["report"], screenshot=tmp_path / "report.png")
     assert view.ok, view.problems()
-    assert view.evaluated["frames"] == 3     # two worst-case poses, the least-margin instant
+    assert view.evaluated["frames"] == 4     # three worst-case poses, the least-margin instant
     assert view.evaluated["drawn"] > 0.01 and view.evaluated["empty"] < 1e-3, view.evaluated

@@ -265,3 +265,25 @@ def test_a_fine_mesh_is_simplified_and_the_page_says_so(tmp_path):
     V, F, _, note = load_mesh(tmp_path / "ring.stl", max_triangles=6000)
     assert "convex hull" in note and len(F) <= 6000
     assert np.linalg.norm(V[:, :2], axis=1).max() == pytest.approx(0.1, rel=1e-3)
+
+
+def test_a_urdf_that_draws_the_chassis_and_a_wheel_replaces_their_drawing(tmp_path):
+    # shapes on links that are not the arm's (a whole-robot URDF's base link and
+    # wheel) take the place of the chassis box and that wheel's cylinder
+    from opspace.description import LinkShape, UrdfShapes
+
+    robot = make_robot(tmp_path, _arm_with_shapes())
+    plain = robot_scene(robot, [robot.neutral()], labels=["a"], title="t")
+    names = [p["name"] for p in plain.parts]
+    assert "chassis" in names and "wheel_left" in names
+    own = UrdfShapes((LinkShape("base", "visual", "box", (0.6, 0.4, 0.2), (0, 0, 0.2)),
+                      LinkShape("wheel_left", "visual", "cylinder", (0.1, 0.04))), ())
+    scene = robot_scene(robot, [robot.neutral()], labels=["a"], title="t", shapes=own)
+    names = [p["name"] for p in scene.parts]
+    assert "chassis" not in names and "wheel_left" not in names and "wheel_right" in names
+    assert "base (visual box)" in names and "wheel_left (visual cylinder)" in names
+    # the arm's own root link rides on the base joint too, but is no chassis
+    root = UrdfShapes((LinkShape("root", "visual", "sphere", (0.05,)),), ())
+    names = [p["name"] for p in robot_scene(robot, [robot.neutral()], labels=["a"], title="t",
+                                            shapes=root).parts]
+    assert "chassis" in names and "root (visual sphere)" in names

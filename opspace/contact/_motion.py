@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ._points import along_motion, effective_masses, mass_along, point_position
+from ._points import along_motion_all, effective_masses, mass_along, point_position
 
 __all__ = ["ContactTrack", "SpeedMap", "contact_track", "heaviest_pose", "speed_map"]
 
@@ -125,8 +125,8 @@ def contact_track(robot, qs, nu, points, regions, *, t, payload_flags=None, payl
                 robot.detach_payload()
             for i in rows:
                 s = idx[i]
-                for j, spec in enumerate(points):
-                    v, m, reg, vm = along_motion(robot, qs[s], nu[s], spec, regions)
+                found = along_motion_all(robot, qs[s], nu[s], points, regions)
+                for j, (v, m, reg, vm) in enumerate(found):
                     speed[i, j], mass[i, j] = v, m
                     region[i, j] = reg.name if reg is not None else ""
                     if v <= 1e-9:

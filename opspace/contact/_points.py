@@ -26,15 +26,17 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
+import pinocchio as pin
 
 from ..description import OUTLINE_POINTS
 from ..dynamics import joint_space, task_space
 from ..errors import ConfigError
 from ._two_body import permissible_speed
 
-__all__ = ["PointMass", "along_motion", "effective_masses", "mass_along", "point_position"]
+__all__ = ["PointMass", "along_motion", "along_motion_all", "effective_masses", "mass_along", "point_position"]
 
 _TINY = 1e-12
+_LWA = pin.ReferenceFrame.LOCAL_WORLD_ALIGNED
 
 
 @dataclass(frozen=True)
@@ -166,6 +168,42 @@ def mass_along(robot, q, spec, direction):
     (the lean path of `effective_masses`, for searches)."""
     _, _, _, Linv = _point_terms(robot, q, np.zeros(robot.nv), spec)
     return _mass_along(Linv, _base_direction(robot, q, direction))
+
+
+def along_motion_all(robot, q, nu, specs, regions):
+    """`along_motion` of every point at one state from one mass matrix: one crba
+    (which also gives every frame Jacobian) and one Cholesky solve for all the
+    points' Jacobians.  Returns a list of (speed, mass, region, v_max)."""
+    from ..dynamics import mass_and_jacobian, solve_spd
+
+    model, data = robot.model, robot.data
+    rows = slice(0, 6)
+    frames = [_offset(robot, s) for s in specs]
+    fids = [robot.frame_id(f) for f, _ in frames]
+    M, J0 = mass_and_jacobian(robot, data, q, fids[0], rows)
+    Js, ps = [], []
+    for fid, (_, offset) in zip(fids, frames):
+        J = J0 if fid == fids[0] else pin.getFrameJacobian(model, data, fid, _LWA).dot(robot.S)
+        pin.updateFramePlacement(model, data, fid)
+        X = data.oMf[fid]
+        r = X.rotation.dot(offset)
+        Js.append(J[:3] - _skew(r).dot(J[3:]))          # T J, T = [I | −[r]×]
+        ps.append(X.translation + r)
+    Jp = np.vstack(Js)                                   # (3k, nv)
+    Linv = Jp.dot(solve_spd(M, np.ascontiguousarray(Jp.T)))
+    v_all = Jp.dot(nu)
+    out = []
+    for j, spec in enumerate(specs):
+        v_p, Lj = v_all[3 * j:3 * j + 3], Linv[3 * j:3 * j + 3, 3 * j:3 * j + 3]
+        speed = float(np.linalg.norm(v_p))
+        height = float(ps[j][2])
+        if speed <= 1e-9:
+            out.append((0.0, math.nan, _region_speed(regions, spec, height, math.inf)[0], None))
+            continue
+        m = _mass_along(Lj, v_p / speed)
+        region, v_max = _region_speed(regions, spec, height, m)
+        out.append((speed, m, region, v_max))
+    return out
 
 
 def along_motion(robot, q, nu, spec, regions):

@@ -120,7 +120,7 @@ class OperationalSpaceController:
             self.posture = None
         else:
             q0 = robot.pose(posture) if isinstance(posture, str) else posture
-            self.posture = _frozen("posture", q0, (robot.n_arm,))
+            self.posture = _frozen("posture", robot.arm_vector("posture", q0), (robot.n_arm,))
         self.wheel_gain = float(wheel_gain)
         if not (math.isfinite(self.wheel_gain) and self.wheel_gain >= 0.0):
             raise ValueError(f"`wheel_gain` must be finite and >= 0 (1/s), got {wheel_gain!r}")

@@ -14,11 +14,13 @@
 from ._catalogue import Catalogue, Gearbox, Motor, load_catalogue
 from ._contact import (OUTLINE_POINTS, BodyRegion, ContactPointSpec, RegionTable,
                        bundled_regions_path, load_contact_points, load_regions)
-from ._duty import DutyCycle, Segment, check_against_robot, load_duty_cycle, resolve_pose
+from ._duty import (DutyCycle, Segment, blend_speed, check_against_robot, load_duty_cycle,
+                    resolve_pose)
 from ._motion_log import MotionLog, load_motion_log
 from ._robot import (ArmJointDrive, BaseSpec, DriveSpec, Mimic, Payload, RobotDescription,
                      WheelSpec, arm_joint_names, arm_position_limits, independent_joint_names,
-                     load_arm, load_arm_urdf, load_description, read_payload)
+                     load_arm, load_arm_urdf, load_description, read_payload, robot_urdf)
+from ._sources import expand_xacro
 from ._scenario import Scenario, check_scenario, load_scenario
 from ._toml import (MAX_GEAR_RATIO, PLAUSIBLE, ROBOT_SIZE, Entry, Section, check_file,
                     check_inertia, check_output_dir, inertia_matrix, option_number,
@@ -42,6 +44,7 @@ __all__ = [
     "DriveSpec",
     "DutyCycle",
     "Entry",
+    "expand_xacro",
     "Gearbox",
     "independent_joint_names",
     "inertia_matrix",
@@ -52,6 +55,7 @@ __all__ = [
     "load_contact_points",
     "load_description",
     "load_duty_cycle",
+    "blend_speed",
     "load_motion_log",
     "load_regions",
     "load_scenario",
@@ -74,6 +78,7 @@ __all__ = [
     "resolve_mesh",
     "resolve_pose",
     "ROBOT_SIZE",
+    "robot_urdf",
     "RobotDescription",
     "Scenario",
     "Section",

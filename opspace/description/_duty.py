@@ -10,10 +10,16 @@ A duty cycle is a sequence of segments, each starting and ending at rest::
     sample_rate = 200             # Hz, sampling of the cycle (default 200)
     service_factor = 1.25         # multiplies required torques (default 1)
     arm_start = "carry"           # arm pose at t = 0: a [poses] name or values
+    verdict_basis = "envelope"    # "envelope" (default) or "cycle": see below
 
     [[segment]]                   # one table per segment, in order
     kind = "straight"             # straight | arc | turn | stop | arm | dwell
     ...
+
+`verdict_basis`: "envelope" passes a drive only when it passes the planned
+cycle AND the cycle's base motions with the arm held at each worst-case pose
+(with the rated payload); "cycle" restricts the verdict to the planned cycle
+(the report then says what the envelope would decide).
 
 Keys per kind (SI units; `payload = true` holds the robot's rated payload
 during the segment, default false; `label` is free text):
@@ -22,7 +28,12 @@ during the segment, default false; `label` is free text):
 straight   distance (m, signed: < 0 reverses), speed (m/s), acceleration,
            deceleration (m/s², default = acceleration), jerk (m/s³, optional:
            S-curve; then deceleration must equal acceleration), grade
-           (rise/run along the robot's forward axis, nose up > 0; default 0)
+           (rise/run along the robot's forward axis, nose up > 0; default 0),
+           cross_grade (rise/run along its left axis, left side up > 0;
+           default 0; also on stop and dwell),
+           blend (default false: true carries the speed over from the straight
+           or arc before, which then does not stop: the two meet at the lower
+           of their speeds)
 arc        radius (m, signed: > 0 turns left), angle (rad travelled, > 0),
            speed, acceleration, deceleration, jerk as for straight
 turn       angle (rad, signed: > 0 turns left, on the spot), rate (rad/s),
@@ -31,13 +42,17 @@ stop       an emergency stop: speed (m/s) reached at `acceleration`, held
            for `cruise` s (default 0.5), then braked at `deceleration`;
            grade as for straight
 arm        to (a [poses] name or joint values), duration (s), profile
-           (minimum_jerk | trapezoidal | s_curve; default minimum_jerk)
+           (minimum_jerk | trapezoidal | s_curve; default minimum_jerk),
+           offset (s, optional: the move runs during the segment before it,
+           starting `offset` s after that segment starts; without it the move
+           follows that segment)
 dwell      duration (s); grade (parked on a ramp)
 =========  ==================================================================
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -50,6 +65,7 @@ __all__ = ["DutyCycle", "Segment", "load_duty_cycle", "SEGMENT_KINDS"]
 
 SEGMENT_KINDS = ("straight", "arc", "turn", "stop", "arm", "dwell")
 PROFILES = ("minimum_jerk", "trapezoidal", "s_curve")
+VERDICT_BASES = ("envelope", "cycle")
 
 
 @dataclass(frozen=True)
@@ -62,6 +78,7 @@ class Segment:
     payload: bool
     grade: float
     values: dict
+    cross_grade: float = 0.0
 
     @property
     def title(self):
@@ -81,6 +98,7 @@ class DutyCycle:
     service_factor: float
     arm_start: object
     segments: tuple = field(default_factory=tuple)
+    verdict_basis: str = "envelope"
 
 
 def load_duty_cycle(path, *, robot=None, doc=None):
@@ -105,6 +123,10 @@ def load_duty_cycle(path, *, robot=None, doc=None):
     rate = s.number("sample_rate", 200.0, unit="Hz", lo=1.0, hi=10000.0)
     sf = s.number("service_factor", 1.0, lo=1.0, hi=10.0)
     arm_start = s.pose("arm_start")
+    basis = s.string("verdict_basis", "envelope")
+    if basis not in VERDICT_BASES:
+        s.fail("verdict_basis", f"must be one of {', '.join(map(repr, VERDICT_BASES))}, "
+                                f"got {basis!r}")
     s.finish()
     robot_path = referenced_path(path, robot_rel)
     catalogue_path = referenced_path(path, catalogue_rel) if catalogue_rel else None
@@ -112,13 +134,15 @@ def load_duty_cycle(path, *, robot=None, doc=None):
     if not isinstance(entries, list) or not entries:
         raise ConfigError(f"{path.name}: the cycle has no [[segment]]: at least one is needed")
     segments = tuple(_read_segment(path, i, e) for i, e in enumerate(entries))
+    _check_overlaps(path, segments)
+    _check_blends(path, segments)
     if from_file:       # files named by a file the user gave exist (a sweep passes documents)
         check_file(robot_path, where=f"{path.name}: [cycle] robot", what="robot description")
         if catalogue_path is not None:
             check_file(catalogue_path, where=f"{path.name}: [cycle] catalogue", what="catalogue")
     duty = DutyCycle(path=path, name=name, robot_path=robot_path, catalogue_path=catalogue_path,
                      cycles_per_hour=cph, sample_rate=rate, service_factor=sf,
-                     arm_start=arm_start, segments=segments)
+                     arm_start=arm_start, segments=segments, verdict_basis=basis)
     if robot is not None:
         check_against_robot(duty, robot)
     return duty
@@ -138,12 +162,68 @@ def _read_segment(path, i, entry):
     payload = s.raw("payload", False, required=False)
     if not isinstance(payload, bool):
         s.fail("payload", f"must be true or false, got {payload!r}")
-    grade = 0.0
+    grade = cross = 0.0
     if kind in ("straight", "stop", "dwell"):
         grade = s.number("grade", 0.0, lo=-1.0, hi=1.0)
+        cross = s.number("cross_grade", 0.0, lo=-1.0, hi=1.0)
+        if math.sin(math.atan(grade)) ** 2 + math.sin(math.atan(cross)) ** 2 >= 1.0:
+            s.fail("cross_grade", f"together with grade {grade:g} tilts the ground past "
+                                  f"vertical, got {cross:g}")
     values = _READERS[kind](s)
     s.finish()
-    return Segment(index=i, kind=kind, label=label, payload=payload, grade=grade, values=values)
+    return Segment(index=i, kind=kind, label=label, payload=payload, grade=grade, values=values,
+                   cross_grade=cross)
+
+
+def _check_overlaps(path, segments):
+    """An arm move with `offset` runs during the segment before it: that one
+    must be a base segment (or a dwell) with the same payload."""
+    for seg in segments:
+        if seg.kind != "arm" or seg.values["offset"] is None:
+            continue
+        where = f"{path.name}: [[segment]] {seg.index + 1} (arm) offset"
+        prev = segments[seg.index - 1] if seg.index > 0 else None
+        if prev is None or prev.kind == "arm":
+            raise ConfigError(f"{where} = {seg.values['offset']:g} s: an arm move with an "
+                              f"offset runs during the segment before it, which must be a base "
+                              f"segment or a dwell, got "
+                              f"{'none' if prev is None else 'an arm move'}")
+        if prev.payload != seg.payload:
+            raise ConfigError(f"{where}: the move runs during segment {prev.index + 1}, so its "
+                              f"payload must be the same ({str(prev.payload).lower()}), got "
+                              f"{str(seg.payload).lower()}")
+
+
+BLENDING = ("straight", "arc")
+
+
+def blend_speed(prev, seg):
+    """The speed at which `seg` (blend = true) takes over from `prev`, m/s,
+    signed along the motion: the lower of their two speeds."""
+    sign = -1.0 if prev.kind == "straight" and prev.values["distance"] < 0 else 1.0
+    return sign * min(prev.values["speed"], seg.values["speed"])
+
+
+def _check_blends(path, segments):
+    """A segment with `blend = true` follows a straight or an arc, moving the
+    same way, without jerk limits on either."""
+    for seg in segments:
+        if not seg.values.get("blend"):
+            continue
+        where = f"{path.name}: [[segment]] {seg.index + 1} ({seg.kind}) blend"
+        prev = segments[seg.index - 1] if seg.index > 0 else None
+        if prev is None or prev.kind not in BLENDING:
+            raise ConfigError(f"{where} = true: it must follow a straight or an arc (the speed "
+                              f"is carried over from it), got "
+                              f"{'nothing' if prev is None else 'a ' + prev.kind}")
+        back = lambda g: g.kind == "straight" and g.values["distance"] < 0  # noqa: E731
+        if back(prev) != back(seg):
+            raise ConfigError(f"{where} = true: segment {prev.index + 1} and this one move in "
+                              f"opposite directions; the base must stop between them")
+        for g in (prev, seg):
+            if "jerk" in g.values:
+                raise ConfigError(f"{where} = true: segment {g.index + 1} has a jerk limit "
+                                  f"(S-curves start and end at rest); drop it to blend")
 
 
 def _nonzero(s, key, unit):
@@ -168,13 +248,21 @@ def _linear_limits(s, rate_unit="m/s", acc_unit="m/s²", jerk_unit="m/s³", spee
     return out
 
 
+def _blend(s):
+    blend = s.raw("blend", False, required=False)
+    if not isinstance(blend, bool):
+        s.fail("blend", f"must be true or false, got {blend!r}")
+    return {"blend": blend}
+
+
 def _straight(s):
-    return {"distance": _nonzero(s, "distance", "m"), **_linear_limits(s)}
+    return {"distance": _nonzero(s, "distance", "m"), **_linear_limits(s), **_blend(s)}
 
 
 def _arc(s):
     return {"radius": _nonzero(s, "radius", "m"),
-            "angle": s.number("angle", unit="rad", lo=0.0, lo_open=True), **_linear_limits(s)}
+            "angle": s.number("angle", unit="rad", lo=0.0, lo_open=True), **_linear_limits(s),
+            **_blend(s)}
 
 
 def _turn(s):
@@ -195,7 +283,7 @@ def _arm(s):
     if profile not in PROFILES:
         s.fail("profile", f"must be one of {', '.join(PROFILES)}, got {profile!r}")
     return {"to": target, "duration": s.number("duration", unit="s", lo=0.0, lo_open=True),
-            "profile": profile}
+            "profile": profile, "offset": s.number("offset", unit="s", lo=0.0, required=False)}
 
 
 def _dwell(s):

@@ -11,7 +11,11 @@ so that the tool frame, joint names and link inertias can be checked.
 
 Keys (SI units; every key is documented in the README's reference section)::
 
-    [robot]  name, arm_urdf, tool_frame
+    [robot]  name, tool_frame, and either arm_urdf (the arm alone) or
+             urdf, wheel_joints, arm_root = none, xacro_args = {} (the whole
+             robot: [base], [wheel], [mount] are then derived, see _whole, and
+             any key given in them overrides the derived value)
+    [package_paths] <package> = <directory>
     [base]   mass, com, inertia, half_track, wheel_radius,
              rolling_resistance = 0, top_speed = inf, footprint = none
     [wheel]  mass, spin_inertia, diameter_inertia
@@ -22,7 +26,7 @@ Keys (SI units; every key is documented in the README's reference section)::
     [payload] mass, com = [0, 0, 0], inertia = [0, 0, 0, 0, 0, 0]
     [arm_joint.<urdf joint>] coulomb, viscous, rotor_inertia = 0, gear_ratio = 1
     [poses]  <name> = [arm joint values]
-    [[caster]] position = [x, y], stiffness
+    [[caster]] position = [x, y], stiffness   (or link = <URDF link>, whole-robot form)
     [support], [[rocker]], [ground] friction_range: the load model (`support`)
     [[contact_point]] name, frame | outline, offset, region, area, direction
                       (see `description._contact`)
@@ -39,7 +43,9 @@ import numpy as np
 from ..errors import ConfigError
 from ._toml import (MAX_GEAR_RATIO, ROBOT_SIZE, Section, check_inertia, read_document,
                     read_text, referenced_path)
-from ._urdf import Mimic, check_inertials, check_urdf, read_mimic
+from ._urdf import Mimic, check_inertials, check_urdf, pinocchio_model, read_mimic
+from ._sources import read_package_paths, resolve_uri, urdf_source
+from ._whole import load_whole
 from ._contact import read_contact_points
 from ._support import SupportSpec, read_friction_range, read_support
 
@@ -56,6 +62,7 @@ __all__ = [
     "RobotDescription",
     "WheelSpec",
     "load_description",
+    "robot_urdf",
 ]
 
 #: ground friction coefficient used when [ground] friction is absent
@@ -161,6 +168,8 @@ class RobotDescription:
     poses: dict = field(default_factory=dict)
     arm_model: object = None  # pinocchio.Model of the arm alone (fixed base)
     mimic: dict = field(default_factory=dict)  # follower joint -> Mimic of an independent one
+    whole: object = None  # WholeForm: what a whole-robot URDF gave, None for the arm-URDF form
+    package_paths: dict = field(default_factory=dict)  # package -> directory ([package_paths])
     support: SupportSpec = SupportSpec()
     friction_range: tuple = (DEFAULT_GROUND_FRICTION, DEFAULT_GROUND_FRICTION)  # (low, high)
     contact_points: tuple = ()  # ContactPointSpec, for the contact pre-check
@@ -170,7 +179,8 @@ class RobotDescription:
 # the description
 # ---------------------------------------------------------------------------
 TOP_LEVEL = ("robot", "base", "wheel", "drive", "mount", "ground", "payload",
-             "arm_joint", "poses", "caster", "support", "rocker", "contact_point")
+             "arm_joint", "poses", "caster", "support", "rocker", "contact_point",
+             "package_paths")
 
 
 def load_description(path, *, doc=None, urdf_text=None):
@@ -191,21 +201,40 @@ def load_description(path, *, doc=None, urdf_text=None):
     ------
     ConfigError   naming file, key, value and expectation
     """
-    path, doc = read_document(path, doc, TOP_LEVEL, ("robot", "base", "wheel", "drive", "mount"))
+    path, doc = read_document(path, doc, TOP_LEVEL, ("robot", "drive"))
     name = path.name
 
     s = Section(path, "robot", doc["robot"])
     robot_name = s.string("name")
-    urdf_rel = s.string("arm_urdf")
     tool_frame = s.string("tool_frame")
-    s.finish()
-    arm_urdf = referenced_path(path, urdf_rel)
+    if s.has("urdf") and s.has("arm_urdf"):
+        s.fail("urdf", "and arm_urdf exclude each other: give the whole robot's URDF (urdf) "
+                       "or the arm's alone (arm_urdf)")
+    whole = load_whole(path, doc, s, urdf_text) if s.has("urdf") else None
+    if whole is None:
+        urdf_rel = s.string("arm_urdf")
+        s.finish()
+        packages = read_package_paths(path, doc.get("package_paths", {}))
+        arm_urdf = referenced_path(path, resolve_uri(urdf_rel, packages, path.parent,
+                                                     f"{name}: [robot] arm_urdf"))
+        for table in ("base", "wheel", "mount"):
+            if table not in doc:
+                raise ConfigError(f"{name}: table [{table}] is missing")
+        tables = {t: doc[t] for t in ("base", "wheel", "mount")}
+    else:
+        arm_urdf, urdf_text = whole.urdf, whole.arm_text
+        given = {t: Section(path, t, doc.get(t, {})).table for t in ("base", "wheel", "mount")}
+        tables = {t: {**whole.tables[t], **given[t]} for t in given}
+        for table, what in (("base", "chassis links"), ("wheel", "wheel links")):
+            if tables[table]["mass"] <= 0.0:   # placeholders only: nothing to derive from
+                raise ConfigError(f"{name}: the {what} of {whole.urdf.name} have no mass: "
+                                  f"give [{table}] mass and its inertia in {name}")
 
-    base = _read_base(Section(path, "base", doc["base"]))
-    wheel = _read_wheel(Section(path, "wheel", doc["wheel"]))
+    base = _read_base(Section(path, "base", tables["base"]))
+    wheel = _read_wheel(Section(path, "wheel", tables["wheel"]))
     drive = _read_drive(Section(path, "drive", doc["drive"]))
 
-    s = Section(path, "mount", doc["mount"])
+    s = Section(path, "mount", tables["mount"])
     mount_xyz = s.vector("xyz", 3, unit="m", cap=ROBOT_SIZE)
     mount_rpy = s.vector("rpy", 3, (0.0, 0.0, 0.0), unit="rad")
     s.finish()
@@ -219,7 +248,7 @@ def load_description(path, *, doc=None, urdf_text=None):
     if "payload" in doc:
         payload = read_payload(Section(path, "payload", doc["payload"]))
 
-    casters, caster_stiffness = _read_casters(path, doc.get("caster", []), base)
+    casters, caster_stiffness = _read_casters(path, doc.get("caster", []), base, whole)
     arm_model, mimic = load_arm(arm_urdf, where=f"{name}: [robot] arm_urdf", text=urdf_text)
     mass = base.mass + 2 * wheel.mass + sum(arm_model.inertias[j].mass
                                             for j in range(arm_model.njoints))
@@ -229,24 +258,50 @@ def load_description(path, *, doc=None, urdf_text=None):
     _check_moving_mass(arm_model, mimic, arm_joints, arm_urdf.name, name)
     poses = _read_poses(path, doc.get("poses", {}), arm_model, mimic)
     contact_points = read_contact_points(path, doc.get("contact_point", []))
-    _check_contact_points(path, contact_points, arm_model, base)
+    _check_contact_points(path, contact_points, arm_model, base,
+                          tuple(whole.frames) if whole is not None else ())
 
     return RobotDescription(
         path=path, name=robot_name, arm_urdf=arm_urdf, tool_frame=tool_frame,
         base=base, wheel=wheel, drive=drive, mount_xyz=mount_xyz,
         mount_rpy=mount_rpy, casters=casters, ground_friction=friction,
         payload=payload, arm_joints=arm_joints, poses=poses, arm_model=arm_model, mimic=mimic,
+        whole=whole and _sources(whole, doc, path.name),
+        package_paths=read_package_paths(path, doc.get("package_paths", {})),
         contact_points=contact_points, support=support, friction_range=friction_range)
 
 
-def _check_contact_points(path, points, arm, base):
-    """Each contact point names a frame of the arm (or the base) or, with an
-    outline point, the base has a footprint."""
+def robot_urdf(path, doc):
+    """(file, text) of the URDF a parsed robot description names: its
+    `[robot] arm_urdf`, or its whole robot's `[robot] urdf` (xacro expanded,
+    `package://` through `[package_paths]`).  For callers that carry the text
+    to where the files are not (sweep workers); ConfigError naming file and key.
+    """
+    path = Path(path)
+    table = doc.get("robot") if isinstance(doc.get("robot"), dict) else {}
+    key = "urdf" if "urdf" in table else "arm_urdf"
+    uri = table.get(key)
+    if not isinstance(uri, str):
+        raise ConfigError(f"{path.name}: [robot] arm_urdf is missing")
+    where = f"{path.name}: [robot] {key}"
+    packages = read_package_paths(path, doc.get("package_paths", {}))
+    if key == "urdf":
+        args = table.get("xacro_args", {})
+        return urdf_source(path, uri, packages, args if isinstance(args, dict) else {}, where)
+    file = referenced_path(path, resolve_uri(uri, packages, path.parent, where))
+    return file, read_text(file, where=where, what="URDF file")
+
+
+def _check_contact_points(path, points, arm, base, chassis=()):
+    """Each contact point names a frame of the arm (or the base, or `chassis`:
+    a whole-robot URDF's chassis and wheel links) or, with an outline point,
+    the base has a footprint."""
     for i, p in enumerate(points):
         where = f"{path.name}: [[contact_point]] {i + 1} {p.name!r}"
         if p.outline is not None and base.footprint is None:
             raise ConfigError(f"{where} outline = {p.outline!r} needs [base] footprint")
-        if p.outline is None and p.frame not in _BASE_FRAMES and not arm.existFrame(p.frame):
+        if p.outline is None and p.frame not in _BASE_FRAMES + chassis \
+                and not arm.existFrame(p.frame):
             names = ", ".join(f.name for f in arm.frames if f.name != "universe")
             raise ConfigError(f"{where} frame = {p.frame!r} is not a link or frame of the arm "
                               f"URDF (known: base, {names})")
@@ -320,7 +375,9 @@ def read_payload(s):
     return payload
 
 
-def _read_casters(path, entries, base):
+def _read_casters(path, entries, base, whole=None):
+    """[[caster]] entries: position = [x, y], or (whole-robot form) link = a URDF
+    link whose collision centre or origin is the contact."""
     if not isinstance(entries, list):
         raise ConfigError(f"{path.name}: [[caster]] must be an array of tables, got {entries!r}")
     if not entries:
@@ -330,7 +387,13 @@ def _read_casters(path, entries, base):
     casters, stiffness = [], []
     for i, entry in enumerate(entries):
         s = Section(path, f"caster {i + 1}", entry)
-        x, y = s.vector("position", 2, unit="m", cap=ROBOT_SIZE)
+        if whole is not None and s.has("link") and not s.has("position"):
+            link = s.string("link")
+            if link not in whole.contacts:
+                s.fail("link", f"'{link}' is not a link of {whole.urdf.name}")
+            x, y = whole.contacts[link]
+        else:
+            x, y = s.vector("position", 2, unit="m", cap=ROBOT_SIZE)
         stiffness.append(s.number("stiffness", unit="N/m", lo=0.0, lo_open=True,
                                   required=False))
         s.finish()
@@ -338,6 +401,24 @@ def _read_casters(path, entries, base):
             s.fail("position", f"coincides with a drive wheel contact, got {[x, y]}")
         casters.append((x, y))
     return tuple(casters), stiffness
+
+
+def _sources(whole, doc, name):
+    """The whole-robot form's record with the TOML's overrides marked as given,
+    and each [[caster]] link's contact listed."""
+    from dataclasses import replace
+    derived = []
+    for d in whole.derived:
+        table, _, key = d.key.strip("[").partition("] ")
+        if key and key in doc.get(table, {}):
+            d = replace(d, value=f"{doc[table][key]} (given)", source=f"given in {name}")
+        derived.append(d)
+    for i, entry in enumerate(doc.get("caster", [])):
+        if "link" in entry and "position" not in entry:
+            x, y = whole.contacts[entry["link"]]
+            derived.append(type(d)(f"[[caster]] {i + 1}", f"[{x:.6g}, {y:.6g}] m",
+                                   f"below link '{entry['link']}' (collision centre or origin)"))
+    return replace(whole, derived=tuple(derived))
 
 
 def load_arm_urdf(urdf_path, *, where, text=None):
@@ -351,17 +432,11 @@ def load_arm(urdf_path, *, where, text=None):
     """(pinocchio.Model of the arm, {follower: Mimic}) from the arm URDF: see
     `load_arm_urdf`; the mimic joints are parsed as ordinary joints by Pinocchio
     and tied to their leaders by the model's reduction map."""
-    import pinocchio as pin
-
     urdf_path = Path(urdf_path)
     if text is None:
         text = read_text(urdf_path, where=where, what="URDF file")
     root = check_urdf(text, urdf_path.name)   # one line per problem, before urdfdom sees it
-    try:
-        arm = pin.buildModelFromXML(text)
-    except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
-        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise ConfigError(f"{urdf_path.name}: URDF does not parse ({first})") from None
+    arm = pinocchio_model(text, urdf_path.name)
     if arm.njoints < 2:
         raise ConfigError(f"{urdf_path.name}: the arm has no moving joint")
     for jid in range(1, arm.njoints):

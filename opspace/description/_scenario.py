@@ -13,6 +13,8 @@
     friction = true              # stick-slip, viscous, rolling resistance in the plant
     joint_stops = true           # arm joints stop at their URDF position limits
     arm_start = "carry"          # a [poses] name or joint values (default zeros)
+    tracking_rms = 0.005         # m, target for the tool position error's RMS (optional)
+    tracking_peak = 0.015        # m, target for its peak (optional)
 
     [controller]
     mode = "arm_only"            # arm_only (wheels follow the base plan) | whole_body
@@ -115,6 +117,8 @@ class Scenario:
     load_transfer: float = 0.0
     pick_speed_limit: float = 0.05
     extra: dict = field(default_factory=dict)
+    tracking_rms: float | None = None
+    tracking_peak: float | None = None
 
 
 def _bool(s, key, default):
@@ -168,6 +172,8 @@ def load_scenario(path):
     friction = _bool(s, "friction", True)
     joint_stops = _bool(s, "joint_stops", True)
     arm_start = s.pose("arm_start")
+    tracking = {k: s.number(f"tracking_{k}", unit="m", lo=0.0, lo_open=True, required=False)
+                for k in ("rms", "peak")}
     s.finish()
     robot_path = referenced_path(path, robot_rel)
     check_file(robot_path, where=f"{path.name}: [simulation] robot", what="robot description")
@@ -249,7 +255,8 @@ def load_scenario(path):
                     controller=controller, base=base, waypoints=waypoints, payload=payload,
                     payload_position=position, pick=pick, release=release, pick_tolerance=tol,
                     joint_stops=joint_stops, load_transfer=transfer,
-                    pick_speed_limit=pick_speed)
+                    pick_speed_limit=pick_speed,
+                    tracking_rms=tracking["rms"], tracking_peak=tracking["peak"])
 
 
 def _read_base_piece(path, i, entry):

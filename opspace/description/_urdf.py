@@ -31,7 +31,11 @@ armature of [arm_joint] is known.
 
 from __future__ import annotations
 
+import contextlib
 import math
+import os
+import sys
+import tempfile
 import xml.etree.ElementTree as ET
 from dataclasses import dataclass
 
@@ -39,7 +43,7 @@ from ..errors import ConfigError
 from ._toml import ROBOT_SIZE, check_inertia
 
 __all__ = ["MAX_LINK_INERTIA", "MAX_LINK_MASS", "Mimic", "RESERVED", "check_inertials", "check_urdf",
-           "parse_xml", "read_mimic"]
+           "parse_xml", "pinocchio_model", "read_mimic"]
 
 INERTIA_KEYS = ("ixx", "iyy", "izz", "ixy", "ixz", "iyz")
 
@@ -63,6 +67,40 @@ def parse_xml(text, file):
     if root.tag != "robot":
         raise ConfigError(f"{file}: the root element must be <robot>, got <{root.tag}>")
     return root
+
+
+def pinocchio_model(text, file):
+    """Pinocchio's model of a URDF text (fixed base); ConfigError naming the file
+    with the parser's first line when it does not parse."""
+    import pinocchio as pin
+
+    with _stderr_caught() as said:   # the URDF parser writes its reasons to fd 2
+        try:
+            return pin.buildModelFromXML(text)
+        except Exception as exc:  # Pinocchio raises ValueError/RuntimeError alike
+            error = exc
+    first = str(error).strip().splitlines()[0] if str(error).strip() else type(error).__name__
+    reasons = [line.split(":", 1)[1].strip() for line in said()
+               if line.strip().startswith("Error:")]
+    raise ConfigError(f"{file}: URDF does not parse ({first}"
+                      + (f": {reasons[0]}" if reasons else "") + ")")
+
+
+@contextlib.contextmanager
+def _stderr_caught():
+    """Redirect the process's file descriptor 2 (C++ libraries write there) to a
+    temporary file while the block runs; yields a callable returning its lines."""
+    sys.stderr.flush()
+    saved, lines = os.dup(2), []
+    with tempfile.TemporaryFile(mode="w+b") as tmp:
+        os.dup2(tmp.fileno(), 2)
+        try:
+            yield lambda: lines
+        finally:
+            os.dup2(saved, 2)
+            os.close(saved)
+            tmp.seek(0)
+            lines += tmp.read().decode("utf-8", "replace").splitlines()
 
 
 def _float(element, attr, default, where):
@@ -189,33 +227,35 @@ def _bound(where, el, attr, values, cap, hint):
 _LENGTH_HINT = "m: URDF lengths are metres; was the file written in millimetres?"
 
 
-def check_urdf(text, name):
+def check_urdf(text, name, *, reserved=RESERVED):
     """Check an arm URDF's text (see the module docstring); `name` is the
-    file name used in messages.  Returns the parsed XML root."""
+    file name used in messages; `reserved`: the names no link or joint may take
+    (a whole-robot URDF passes none: only its arm is appended to the base model,
+    and its arm is checked again on its own).  Returns the parsed XML root."""
     root = parse_xml(text, name)
-    links = _check_links(root, name)
-    joints = _check_joints(root, name, links)
+    links = _check_links(root, name, reserved)
+    joints = _check_joints(root, name, links, reserved)
     _check_tree(name, links, joints)
     return root
 
 
-def _named(name, el, kind, seen):
+def _named(name, el, kind, seen, reserved):
     n = el.get("name")
     if not n or not n.strip():
         raise ConfigError(f"{name}: a <{kind}> has no name attribute")
     if n in seen:
         raise ConfigError(f"{name}: two <{kind}> elements are named '{n}' (names must be unique)")
-    if n in RESERVED:
+    if n in reserved:
         raise ConfigError(f"{name}: <{kind}> '{n}' uses a name the base model reserves "
-                          f"({', '.join(RESERVED)}): rename it")
+                          f"({', '.join(reserved)}): rename it")
     seen.append(n)
     return n
 
 
-def _check_links(root, name):
+def _check_links(root, name, reserved):
     links = []
     for link in root.findall("link"):
-        lname = _named(name, link, "link", links)
+        lname = _named(name, link, "link", links, reserved)
         inertial = link.find("inertial")
         if inertial is None:
             continue
@@ -237,10 +277,10 @@ def _check_links(root, name):
     return links
 
 
-def _check_joints(root, name, links):
+def _check_joints(root, name, links, reserved):
     joints, names = [], []
     for joint in root.findall("joint"):
-        jname = _named(name, joint, "joint", names)
+        jname = _named(name, joint, "joint", names, reserved)
         where = f"{name}: joint '{jname}'"
         kind = joint.get("type")
         if kind not in TYPES:

@@ -155,7 +155,7 @@ def _shape(element, link, source, materials, urdf_path, package_paths):
     return LinkShape(link, source, kind, size, xyz, rpy, mesh, _rgba(element, materials, where))
 
 
-def read_shapes(urdf_path, *, text=None, package_paths=None):
+def read_shapes(urdf_path, *, text=None, package_paths=None, sources=("visual", "collision")):
     """The drawable shapes of every link of a URDF.
 
     Parameters
@@ -163,6 +163,8 @@ def read_shapes(urdf_path, *, text=None, package_paths=None):
     urdf_path : str or Path   the URDF (names it in notes; relative meshes start there)
     text : str, optional      its content, if already at hand
     package_paths : dict, optional   package name -> directory for ``package://``
+    sources : the elements to take, in order of preference per link
+              (("collision",) for the collision geometry alone)
 
     Returns
     -------
@@ -178,7 +180,7 @@ def read_shapes(urdf_path, *, text=None, package_paths=None):
     shapes = []
     for link in root.iter("link"):
         name = link.get("name", "")
-        for source in ("visual", "collision"):
+        for source in sources:
             found = []
             for element in link.findall(source):
                 try:

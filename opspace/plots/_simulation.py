@@ -104,6 +104,19 @@ def _limit_items(name, value, scale, unit):
     return [(label or f"limit {v * scale:.3g} {unit}", v) for label, v in items]
 
 
+def _label_row(placed, x, gap):
+    """Row (0 or 1) below the outline for an instant's label: the first row
+    unless a label there is closer than `gap` (m along x), then the second
+    (the tool path usually runs above the base, so both rows are below it);
+    records the choice in `placed`."""
+    for row in (0, 1):
+        if all(abs(x - other) >= gap for other in placed[row]):
+            placed[row].append(x)
+            return row
+    placed[0].append(x)
+    return 0
+
+
 def _outline(fp, pose):
     """World corners (4, 2) of the footprint rectangle at pose (x, y, θ)."""
     x0, x1, y0, y1 = fp[:4]
@@ -372,6 +385,8 @@ def base_path(x, y, theta, *, footprint, instants, tool=None, target=None,
     ax.plot(x, y, color="black", lw=1.3, label="base path (base origin)", zorder=3)
     colours = colormaps["viridis"](np.linspace(0.0, 0.75, max(len(idx), 1)))
     heading = 0.6 * fp[1] if fp is not None else 0.1 * s
+    placed = ([], [])                  # label x positions in the two rows below the outlines
+    gap = 0.09 * (float(np.ptp(x)) + (fp[1] - fp[0] if fp is not None else 0.0) + 1e-9)
     for k, i in enumerate(idx):
         c = colours[k]
         pose = (x[i], y[i], th[i])
@@ -387,7 +402,8 @@ def base_path(x, y, theta, *, footprint, instants, tool=None, target=None,
         ax.plot(tip[:, 0], tip[:, 1], color=c, lw=1.6, zorder=4)
         ax.plot([x[i]], [y[i]], ls="none", marker="o", ms=5, mfc=c, mec="black", zorder=5)
         label_at = outlines[k] if outlines[k] is not None else np.array([[x[i], y[i]]])
-        ax.annotate(name, (x[i], float(label_at[:, 1].min())), xytext=(0, -3),
+        row = _label_row(placed, float(x[i]), gap)
+        ax.annotate(name, (x[i], float(label_at[:, 1].min())), xytext=(0, -3 - 10 * row),
                     textcoords="offset points", ha="center", va="top", fontsize=7.5, color=c,
                     zorder=6)
         if P_tool is not None and P_tool.shape[0] == n and np.all(np.isfinite(P_tool[i, :2])):

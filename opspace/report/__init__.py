@@ -8,7 +8,8 @@ from ._html import Page, fmt
 from ._limits import write_limits_report
 from ._identify import identify_summary, toml_text, write_identify_outputs
 from ._scene3d import Marker, Scene3D, robot_scene, scene_html
-from ._simulation import simulation_html, simulation_text, write_simulation_outputs
+from ._simulation import (simulation_html, simulation_text, tracking_targets,
+                          write_simulation_outputs)
 from ._sizing import ASSUMPTIONS, CAUTIONS, sizing_summary, write_sizing_report, write_timeseries_csv
 from ._text import CAUTION, check_summary, losses
 from ._views import design_view, simulation_view, sizing_view
@@ -32,6 +33,7 @@ __all__ = [
     "scene_html",
     "simulation_html",
     "simulation_text",
+    "tracking_targets",
     "simulation_view",
     "sizing_summary",
     "sizing_view",

@@ -1,6 +1,12 @@
 """A small, dependency-free builder for self-contained HTML pages: escaped
 text, tables, figures embedded as base64 PNG, a verdict banner, and one
-stylesheet.  Used by the sizing, sweep and simulation pages."""
+stylesheet.  Used by the sizing, sweep and simulation pages.
+
+The palette is opspace's own, blue for pass and burnt orange for fail (told
+apart with red-green colour blindness; every coloured cell also says pass or
+FAIL, or shows a signed margin, in words); banners carry a bar on the left.
+Margin cells of the candidate matrix shade by margin: bad (< 0), m1 (0–10 %),
+m2 (10–30 %), m3 (> 30 %)."""
 
 from __future__ import annotations
 
@@ -16,16 +22,20 @@ body { font-family: system-ui, -apple-system, "Segoe UI", sans-serif; margin: 2e
 h1 { font-size: 1.6em; margin-bottom: 0.2em; } h2 { border-bottom: 1px solid #ccc;
      padding-bottom: 0.2em; margin-top: 2em; } h3 { margin-bottom: 0.3em; }
 .meta { color: #555; font-size: 0.9em; }
-.verdict { padding: 0.8em 1em; border-radius: 6px; font-size: 1.1em; margin: 1em 0; }
-.verdict.pass { background: #e6f4ea; border: 1px solid #34a853; }
-.verdict.fail { background: #fce8e6; border: 1px solid #d93025; }
-.verdict.info { background: #e8f0fe; border: 1px solid #4285f4; }
-.caution { background: #fff8e1; border: 1px solid #f9a825; padding: 0.6em 1em;
-           border-radius: 6px; font-size: 0.92em; }
-table { border-collapse: collapse; margin: 0.6em 0 1.2em; font-size: 0.88em; }
+.verdict { padding: 0.7em 1em 0.7em 1.1em; font-size: 1.1em; margin: 1em 0;
+           border-left: 7px solid; background: #f3f4f6; }
+.verdict.pass { background: #e4eff6; border-color: #1d5f86; }
+.verdict.fail { background: #fbe8d9; border-color: #a4460f; }
+.verdict.info { background: #eeeff2; border-color: #59606b; }
+.caution { background: #f8f1de; border-left: 7px solid #8c6a12; padding: 0.6em 1em;
+           font-size: 0.92em; }
+.tablewrap { max-width: 100%; overflow-x: auto; margin: 0.6em 0 1.2em; }
+table { border-collapse: collapse; font-size: 0.88em; }
 th, td { border: 1px solid #ddd; padding: 0.25em 0.55em; text-align: right; }
 th { background: #f5f5f5; } td.l, th.l { text-align: left; }
-td.ok { background: #e6f4ea; } td.bad { background: #fce8e6; font-weight: 600; }
+td.ok { background: #e4eff6; } td.bad { background: #fbe8d9; font-weight: 600; }
+td.m1 { background: #eef5f9; } td.m2 { background: #cfe2ee; } td.m3 { background: #a9cbe0; }
+td.rec { outline: 2px solid #1d5f86; outline-offset: -2px; font-weight: 600; }
 td.na { color: #999; }
 figure { margin: 1em 0; } figure img { max-width: 100%; border: 1px solid #eee; }
 figcaption { font-size: 0.88em; color: #444; }
@@ -94,8 +104,8 @@ class Page:
                 c = f' class="{" ".join(cls)}"' if cls else ""
                 cells.append(f"<td{c}>{html.escape(str(cell))}</td>")
             body.append("<tr>" + "".join(cells) + "</tr>")
-        self.parts.append(f"<table><thead><tr>{th}</tr></thead><tbody>{''.join(body)}"
-                          f"</tbody></table>")
+        self.parts.append(f'<div class="tablewrap"><table><thead><tr>{th}</tr></thead>'
+                          f"<tbody>{''.join(body)}</tbody></table></div>")
 
     def figure(self, image, caption, mime="image/png"):
         """An embedded image (bytes; PNG, or mime="image/gif" for an animation)."""

@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ._sizing import CAUTIONS, _finite
+from ._sizing import RUN_CAUTIONS as CAUTIONS, _finite
 from ._views import simulation_view
 
 __all__ = ["SIMULATION_ASSUMPTIONS", "simulation_html", "simulation_text",
@@ -33,6 +33,23 @@ SIMULATION_ASSUMPTIONS = (
     "Efforts are clipped to their limits; the controller is sampled at its rate and its "
     "output held (zero-order hold).",
 )
+
+
+def tracking_targets(scenario):
+    """{label: m} of the scenario's tool tracking targets (`tracking_rms`,
+    `tracking_peak`), for the error figure's lines; empty when none is given."""
+    out = {}
+    if scenario.tracking_rms is not None:
+        out[f"{scenario.tracking_rms * 1e3:g} mm RMS target"] = scenario.tracking_rms
+    if scenario.tracking_peak is not None:
+        out[f"{scenario.tracking_peak * 1e3:g} mm peak target"] = scenario.tracking_peak
+    return out
+
+
+def _against(value, target):
+    if target is None:
+        return ""
+    return f" (target {target * 1e3:g} mm: {'met' if value <= target else 'MISSED'})"
 
 
 def simulation_text(run, result, *, compare=None):
@@ -57,8 +74,10 @@ def simulation_text(run, result, *, compare=None):
                      + (f" (limit {lim:g} m/s)" if lim is not None else ""))
     e = s.get("tool_position_error")
     if e:
-        lines.append(f"tool position error: RMS {e['rms']['value'] * 1e3:.2f} mm, peak "
-                     f"{e['peak']['value'] * 1e3:.2f} mm")
+        lines.append(f"tool position error: RMS {e['rms']['value'] * 1e3:.2f} mm"
+                     f"{_against(e['rms']['value'], sc.tracking_rms)}, peak "
+                     f"{e['peak']['value'] * 1e3:.2f} mm"
+                     f"{_against(e['peak']['value'], sc.tracking_peak)}")
     o = s.get("tool_orientation_error")
     if o:
         lines.append(f"tool orientation error: RMS {o['rms']['value'] * 1e3:.1f} mrad, peak "
@@ -72,6 +91,10 @@ def simulation_text(run, result, *, compare=None):
                          f"{c['peak']['value'] * 1e3:.2f} mm")
     sat = [n for n, v in s["efforts"].items() if v["saturated_share"]["value"] > 0]
     lines.append("effort limits reached by: " + (", ".join(sat) if sat else "none"))
+    for f in s["limit_flags"]:
+        lines.append(f"LIMIT PASSED: {f['coordinate']} {f['kind']} {f['peak']['value']:.3g} "
+                     f"{f['peak']['unit']} > {f['limit']['value']:.3g} {f['limit']['unit']} "
+                     f"(first at t = {f['first_t']['value']:.2f} s)")
     if "min_tip_over_margin" in s:
         lines.append(f"least tip-over margin {s['min_tip_over_margin']['value'] * 1e3:.0f} mm; "
                      f"largest traction use {s['max_traction_use']['value']:.2f} (slip at 1)")
@@ -254,7 +277,7 @@ def write_simulation_outputs(run, result, out_dir, *, compare=None, animate=True
     orient = np.linalg.norm(err[:, 3:6], axis=1) if err.shape[1] >= 6 else None
     figs.append(("tracking_error.png", sp.tracking_error(
         result.t, result.position_error, orientation_error=orient, pick=sc.pick,
-        release=sc.release, limits={"5 mm RMS target": 0.005, "15 mm peak target": 0.015})))
+        release=sc.release, limits=tracking_targets(sc) or None)))
     units = ["N·m", "N·m"] + ["N" if u == "m" else "N·m" for u in robot.arm_units]
     figs.append(("efforts.png", sp.efforts(result.t, result.Q, list(result.coordinate_names),
                                            result.effort_limit, saturated=result.saturated,

@@ -14,8 +14,8 @@ from ._html import Page, fmt
 from ._text import losses as _losses
 from ._views import sizing_view
 
-__all__ = ["ASSUMPTIONS", "CAUTIONS", "sizing_html", "sizing_summary", "write_sizing_report",
-           "write_timeseries_csv"]
+__all__ = ["ASSUMPTIONS", "CAUTIONS", "RUN_CAUTIONS", "sizing_html", "sizing_summary",
+           "write_sizing_report", "write_timeseries_csv"]
 
 
 ASSUMPTIONS = (
@@ -35,16 +35,26 @@ ASSUMPTIONS = (
     "The gyroscopic reaction of the motor rotors on the chassis is neglected.",
 )
 
+RUN_CAUTIONS = (
+    "These figures are model estimates, not measurements.",
+    "Apply service factors suited to the application.",
+    "Verify efforts, tracking, traction and stability on the real hardware before relying "
+    "on them.",
+    "Follow the applicable safety standards for mobile robots and manipulators, local "
+    "codes and licensed engineering practice; tip-over, traction and stopping figures must "
+    "never be the only basis of a safety decision.",
+)
+"""The cautions of a simulated run (no duty cycle, no service factor of its own)."""
+
 CAUTIONS = (
     "These figures are model estimates, not measurements.",
     "Apply service factors suited to the application; the cycle's service factor "
     "multiplies required torques only.",
     "Verify torques, temperatures, traction, stopping distances and stability on the "
     "real hardware before relying on them.",
-    "Follow the applicable safety standards for mobile robots and manipulators, local "
-    "codes and licensed engineering practice; tip-over, traction and stopping figures must "
-    "never be the only basis of a safety decision.",
+    RUN_CAUTIONS[-1],
 )
+"""The cautions of a sizing (and of a sweep of sizings)."""
 
 
 def _per_wheel(arr, unit):
@@ -58,7 +68,7 @@ def _peak(x):
 
 
 def _sweep_summary(sweep, result):
-    from ..sizing import ROBOT_CRITERIA, drive_margin
+    from ..sizing import drive_margin, robot_level
 
     checks = []
     for c in sweep.checks:
@@ -70,7 +80,7 @@ def _sweep_summary(sweep, result):
             "thermal_rms_motor_torque": _per_wheel(np.atleast_1d(f.thermal_rms_torque), "N·m"),
             "peak_motor_speed": _per_wheel(np.atleast_1d(f.peak_speed), "rad/s"),
             "energy_per_cycle": _per_wheel(np.atleast_1d(f.energy), "J"),
-            "criteria": [k.to_dict() for k in c.criteria if k.name not in ROBOT_CRITERIA]})
+            "criteria": [k.to_dict() for k in c.criteria if not robot_level(k.name)]})
     return {"motor": sweep.motor, "gearbox": sweep.gearbox,
             "passing_ratios": _q(list(sweep.passing_ratios), "1"),
             "passing_ratio_intervals": _q([list(iv) for iv in sweep.pass_intervals], "1"),
@@ -93,6 +103,7 @@ def sizing_summary(result):
     out = {
         "opspace_version": __version__,
         "status": result.status, "message": result.message,
+        "verdict_basis": result.basis,
         "cycle": {"name": duty.name, "file": duty.path.name,
                   "duration": _q(ev.duration, "s"), "samples": _q(len(ev.t), "1"),
                   "sample_rate": _q(duty.sample_rate, "Hz"),
@@ -132,6 +143,7 @@ def sizing_summary(result):
                           "end": _q(sp["end"], "s")}
                          for sp in lift_off_spans(ev.t, st.loads.lifted,
                                                   [c.name for c in robot.contacts])]},
+        "planned_cycle": {"criteria": [c.to_dict() for c in result.cycle_criteria]},
         "candidates": [_sweep_summary(s, result) for s in result.sweeps],
         "assumptions": list(ASSUMPTIONS),
         "cautions": list(CAUTIONS),
@@ -153,7 +165,9 @@ def sizing_summary(result):
         names, units = robot.arm_joint_names, robot.arm_units
         out["worst_case"] = {"peak_wheel_torque": result.worst_torque.to_dict(names, units),
                              "tip_over": result.worst_tip.to_dict(names, units),
+                             "traction_use": result.worst_traction.to_dict(names, units),
                              "instants": _q(len(result.instants), "1")}
+        out["envelope_cases"] = [c.to_dict(names, units) for c in result.cases]
         out["shortest_stop"] = result.stop.to_dict(names, units)
     if result.contact is not None:
         from ._contact import contact_summary
@@ -216,7 +230,7 @@ def _best_per_sweep(sweep):
 
 
 def _verdict_table(page, result):
-    from ..sizing import ROBOT_CRITERIA
+    from ..sizing import margin_text, robot_level
 
     names = []
     for s in result.sweeps:
@@ -224,21 +238,63 @@ def _verdict_table(page, result):
             for k in c.criteria:
                 if k.name not in names:
                     names.append(k.name)
-    drive_names = [n for n in names if n not in ROBOT_CRITERIA]
+    drive_names = [n for n in names if not robot_level(n)]
     rows, classes = [], []
     for s in result.sweeps:
         for c in s.checks:
-            row = [c.motor, c.gearbox, f"{c.ratio:g}", "pass" if c.passed else "FAIL"]
-            cls = ["", "", "", "ok" if c.passed else "bad"]
+            ok = all(k.passed for k in c.criteria if not robot_level(k.name))
+            row = [c.motor, c.gearbox, f"{c.ratio:g}", "pass" if ok else "FAIL"]
+            cls = ["", "", "", "ok" if ok else "bad"]
             by = {k.name: k for k in c.criteria}
             for n in drive_names:
                 k = by.get(n)
-                row.append("–" if k is None else f"{k.margin:+.0%}")
+                row.append("–" if k is None else margin_text(k.margin))
                 cls.append("na" if k is None else ("ok" if k.passed else "bad"))
             rows.append(row)
             classes.append(cls)
-    page.table(["motor", "gearbox", "ratio", "verdict"] + drive_names, rows,
+    page.table(["motor", "gearbox", "ratio", "drive verdict"] + drive_names, rows,
                left=(0, 1), classes=classes)
+
+
+def _margin_class(margin):
+    """CSS class of a margin cell (see report.html's palette)."""
+    if not margin >= 0.0:
+        return "bad"
+    return "m1" if margin < 0.1 else ("m2" if margin < 0.3 else "m3")
+
+
+def _candidate_matrix(page, result):
+    """Per gearbox family, motors × catalogue ratios: each cell the tightest
+    drive criterion and its margin, shaded by margin; the recommended cell framed."""
+    from ..sizing import margin_text, robot_level
+
+    rec = result.recommended
+    families = []
+    for s in result.sweeps:
+        if s.gearbox not in families:
+            families.append(s.gearbox)
+    for family in families:
+        sweeps = [s for s in result.sweeps if s.gearbox == family]
+        ratios = sorted({c.ratio for s in sweeps for c in s.checks})
+        rows, classes = [], []
+        for s in sweeps:
+            row, cls = [s.motor], [""]
+            by_ratio = {c.ratio: c for c in s.checks}
+            for G in ratios:
+                c = by_ratio.get(G)
+                if c is None:
+                    row.append("–")
+                    cls.append("na")
+                    continue
+                k = min((k for k in c.criteria if not robot_level(k.name)),
+                        key=lambda k: k.margin)
+                row.append(f"{margin_text(k.margin)} {k.name}")
+                mark = " rec" if rec is not None and rec[1] is c else ""
+                cls.append(_margin_class(k.margin) + mark)
+            rows.append(row)
+            classes.append(cls)
+        page.heading(f"{family}: motor × ratio", level=3)
+        page.table(["motor"] + [f"{G:g}:1" for G in ratios], rows, left=(0,), classes=classes)
 
 
 def _ratio_table(page, result):
@@ -254,10 +310,13 @@ def _ratio_table(page, result):
 
 
 def _criteria_table(page, criteria):
+    from ..sizing import margin_text
+
     rows, cls = [], []
     for k in criteria:
-        rows.append([k.name, f"{fmt(k.value)} {k.unit}", f"{fmt(k.limit)} {k.unit}",
-                     f"{k.margin:+.0%}", "pass" if k.passed else "FAIL", k.note])
+        unit = "" if k.unit in ("", "1") else f" {k.unit}"
+        rows.append([k.name, f"{fmt(k.value)}{unit}", f"{fmt(k.limit)}{unit}",
+                     margin_text(k.margin, "unbounded"), "pass" if k.passed else "FAIL", k.note])
         cls.append(["", "", "", "", "ok" if k.passed else "bad", ""])
     page.table(["criterion", "required", "limit", "margin", "verdict", "where"], rows,
                left=(0, 5), classes=cls)
@@ -281,10 +340,10 @@ def _figures(result, progress):
     rec = result.recommended
     if result.sweeps:
         bars = []
-        from ..sizing import ROBOT_CRITERIA
+        from ..sizing import robot_level
         for s in result.sweeps:
             c = _best_per_sweep(s)
-            k = min((k for k in c.criteria if k.name not in ROBOT_CRITERIA), key=lambda k: k.margin)
+            k = min((k for k in c.criteria if not robot_level(k.name)), key=lambda k: k.margin)
             bars.append({"label": f"{c.motor} + {c.gearbox} {c.ratio:g}:1 — {k.name}",
                          "margin": k.margin, "passed": c.passed})
         add(plots.margins_bar(bars, title="Tightest drive margin per motor and gearbox"),
@@ -390,14 +449,27 @@ def _pose_drawings(result):
         if payload is not None:
             robot.attach_payload()
         for wp, what in ((result.worst_torque, "peak wheel torque"),
-                         (result.worst_tip, "least tip-over margin")):
+                         (result.worst_tip, "least tip-over margin"),
+                         (result.worst_traction, "highest traction use")):
             q = robot.configurations(wp.q[None])[0]
-            d = {"label": f"{what}: {wp.value:.3g} {wp.unit}", "points": robot.arm_points(q),
+            unit = "" if wp.unit == "1" else f" {wp.unit}"
+            d = {"label": f"{what}: {wp.value:.3g}{unit}", "points": robot.arm_points(q),
                  "com": robot.com(q)}
             if payload is not None:
                 d["payload"] = robot.frame_placement(q, robot.tool_frame).act(np.array(payload.com))
             out.append(d)
     return out
+
+
+def _basis_words(result):
+    if result.basis == "envelope":
+        return ("Verdict basis: the planned cycle AND the arm's envelope — the cycle's base "
+                "motions repeated with the arm held still at each worst-case pose found below "
+                "(peak wheel torque, least tip-over margin, highest traction use), with the rated "
+                "payload. Each row below is the worst over all of them; its note names the case.")
+    return ("Verdict basis: the planned cycle only (the arm moves as planned). "
+            + ("" if result.envelope_sweeps is not None else
+               "The arm's envelope was not checked (no worst-case search)."))
 
 
 def sizing_html(result, *, progress=None):
@@ -413,16 +485,25 @@ def sizing_html(result, *, progress=None):
     page.caution(CAUTIONS)
     figs = _figures(result, progress)
     fig_iter = iter(figs)
+    page.para(_basis_words(result), cls="meta")
     page.heading("Robot-level criteria (the same for every drive)")
     _criteria_table(page, result.robot_criteria)
     if result.sweeps:
         rec = result.recommended
         page.heading("Verdict per candidate")
         if rec is not None:
-            page.para(f"Recommended (smallest passing motor): {rec[1].motor} with {rec[1].gearbox} "
-                      f"at {rec[1].ratio:g}:1.")
+            page.para(f"Recommended (smallest motor passing every drive criterion): {rec[1].motor} "
+                      f"with {rec[1].gearbox} at {rec[1].ratio:g}:1"
+                      + (" — the robot itself fails a robot-level criterion above: no drive "
+                         "fixes that." if any(not c.passed for c in result.robot_criteria)
+                         else "."))
         page.para("Margins are fractions of each limit after the service factor (below zero "
-                  "fails). Traction and tip-over rows are listed above.")
+                  "fails). Robot-level rows (traction, tip-over, arm limits) are listed above.")
+        page.para("At a glance: each cell is a motor at a catalogue ratio, showing its tightest "
+                  "drive criterion and that margin (orange: fails; deeper blue: more margin; "
+                  "framed: recommended). The full table follows.")
+        _candidate_matrix(page, result)
+        page.heading("All candidates and criteria", level=3)
         _verdict_table(page, result)
         page.figure(*next(fig_iter))
         page.heading("Gear ratio")
@@ -444,12 +525,17 @@ def sizing_html(result, *, progress=None):
         page.heading("Worst case of the arm")
         names = robot.arm_joint_names
         rows = []
-        for wp in (result.worst_torque, result.worst_tip):
-            rows.append([wp.objective, f"{wp.value:.4g} {wp.unit}", f"{wp.grid_value:.4g} {wp.unit}",
+        for wp in result.worst:
+            unit = "" if wp.unit == "1" else f" {wp.unit}"
+            rows.append([wp.objective, f"{wp.value:.4g}{unit}", f"{wp.grid_value:.4g}{unit}",
                          ", ".join(f"{n} {v:.2f}" for n, v in zip(names, wp.q)),
                          f"t = {result.instants[wp.instant].t:.2f} s"])
         page.table(["objective", "refined", "best grid point", "pose (rad or m)", "instant"], rows,
                    left=(0, 3, 4))
+        wp = result.worst_torque
+        page.para(f"Only physical poses are searched: {wp.excluded} grid poses reaching below "
+                  f"the floor or into the chassis footprint box were left out, checked on "
+                  f"{wp.geometry}.")
         page.figure(*next(fig_iter))
         s = result.stop
         if s.deceleration > 0:
@@ -473,7 +559,7 @@ def sizing_html(result, *, progress=None):
                                 ("peak motor speed", "peak_speed", "rad/s"),
                                 ("peak power", "peak_power", "W"),
                                 ("energy per cycle", "energy", "J"),
-                                ("regenerable share", "regenerated_share", "1"))],
+                                ("regenerable share", "regenerated_share", ""))],
         left=(0,))
     if result.contact is not None:
         from ._contact import contact_section

@@ -37,7 +37,8 @@ def sizing_view(result):
     j = int(np.argmin(st.margin))
     cases = []
     for wp, what in ((result.worst_torque, "peak wheel torque"),
-                     (result.worst_tip, "least tip-over margin")):
+                     (result.worst_tip, "least tip-over margin"),
+                     (result.worst_traction, "highest traction use")):
         if wp is not None:
             q = robot.configurations(np.asarray(wp.q)[None])[0]
             cases.append((f"worst case: {what}", q, robot.description.payload is not None))

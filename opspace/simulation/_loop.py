@@ -411,7 +411,8 @@ class _Recorder:
             message=message, dt=dt, control_period=control_period, integrator=integrator,
             coordinate_names=tuple(robot.coordinate_names), effort_limit=robot.effort_limit.copy(),
             stability=track, extra={"prismatic": prismatic, "loop": loop, "plant": plant or {},
-                                    "control_sample": self.fresh[sl].copy()})
+                                    "control_sample": self.fresh[sl].copy(),
+                                    "velocity_limit": robot.velocity_limit.copy()})
 
 
 def _stability(robot, qs, nus, nu_dots, Qs, payload, end_payload):

@@ -111,7 +111,8 @@ class SimulationResult:
 
     def summary(self):
         """Figures of the run, each {"value", "unit"}: peak and RMS effort per
-        coordinate, tool position error RMS and peak, wheel energy drawn."""
+        coordinate, tool position error RMS and peak, wheel energy drawn, the
+        speed and effort limits passed (`limit_flags`)."""
         t = self.t
         w = _trapezoid_weights(t)
         T = max(t[-1] - t[0], 1e-300)
@@ -144,6 +145,7 @@ class SimulationResult:
         P = self.Q[:, :2] * self.nu[:, :2]
         out["wheel_energy_drawn"] = {name: _q(float(w.dot(np.maximum(P[:, i], 0.0))), "J")
                                      for i, name in enumerate(self.coordinate_names[:2])}
+        out["limit_flags"] = self.limit_flags()
         if self.stability is not None:
             out["min_tip_over_margin"] = _q(float(np.nanmin(self.stability.margin)), "m")
             out["max_traction_use"] = _q(float(np.nanmax(self.stability.traction)), "1")
@@ -166,6 +168,29 @@ class SimulationResult:
                                           "limit": _q(limit if math.isfinite(limit) else None,
                                                       "m/s")}
         return out
+
+    def limit_flags(self):
+        """Every coordinate whose speed |ν| passed its velocity limit (URDF
+        `velocity`; wheels: top_speed / r) or whose demanded effort |Q_demand|
+        passed its effort limit: a list of {"coordinate", "kind" ("speed" or
+        "effort"), "peak", "limit", "first_t" (s, when it first passed)}."""
+        flags = []
+        v_lim = self.extra.get("velocity_limit")
+        for kind, series, limits in (("speed", self.nu, v_lim),
+                                     ("effort", self.Q_demand, self.effort_limit)):
+            if limits is None:
+                continue
+            for i, name in enumerate(self.coordinate_names):
+                over = np.flatnonzero(np.abs(series[:, i]) > limits[i] * (1 + 1e-9))
+                if np.isfinite(limits[i]) and over.size:
+                    prismatic = self.extra.get("prismatic", {}).get(name)
+                    unit = ("m/s" if prismatic else "rad/s") if kind == "speed" else (
+                        "N" if prismatic else "N·m")
+                    flags.append({"coordinate": name, "kind": kind,
+                                  "peak": _q(float(np.max(np.abs(series[:, i]))), unit),
+                                  "limit": _q(float(limits[i]), unit),
+                                  "first_t": _q(float(self.t[over[0]]), "s")})
+        return flags
 
     def to_npz(self, path):
         """All arrays in one NumPy archive."""

@@ -136,7 +136,8 @@ class ScenarioRun:
     def run(self, *, integrator=None, progress=None, stability=True, compiled=None, step=None):
         """SimulationResult of the scenario (`compiled`: see `simulate`; `step`: an
         integration step s other than the scenario's, a whole fraction of its
-        control period, e.g. for a step-halving check)."""
+        control period, e.g. for a step-halving check; `stability`: the post-run
+        analyses, the stability track and the contact pre-check)."""
         sc = self.scenario
         result = simulate(self.robot, self.control, duration=sc.duration, q0=self.q0,
                           dt=sc.step if step is None else step,
@@ -147,7 +148,7 @@ class ScenarioRun:
                           compiled=self.compiled if compiled is None else compiled,
                           stops=sc.joint_stops)
         result.extra["feedforward"] = bool(self.controller.friction_feedforward)
-        if self.robot.description.contact_points:
+        if stability and self.robot.description.contact_points:
             result.extra["contact"] = self.contact_check(result)
         return result
 

@@ -22,7 +22,7 @@ from collections import OrderedDict
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..description import read_text, read_toml, referenced_path
+from ..description import read_toml, referenced_path, robot_urdf
 from ..errors import ConfigError
 
 __all__ = ["Documents", "digest", "read_documents"]
@@ -43,8 +43,9 @@ class Documents:
 
     docs: root ("robot", "cycle", "catalogue") -> dict, the catalogue None
     when the duty cycle names none; names: root -> the base file's name;
-    urdf_name, urdf_text: the arm URDF; urdf_digest: SHA-256 of its text;
-    urdf_path: where it was read (meshes for drawings are found from there).
+    urdf_name, urdf_text: the arm URDF, or the whole robot's (xacro expanded);
+    urdf_digest: SHA-256 of its text; urdf_path: where it was read (meshes for
+    drawings are found from there).
     """
 
     docs: dict
@@ -76,12 +77,7 @@ def read_documents(duty_path, *, where):
     robot_path = referenced_path(duty_path, table["robot"])
     robot = read_toml(robot_path, where=f"{duty_path.name}: [cycle] robot",
                       what="robot description")
-    urdf_rel = robot.get("robot", {}).get("arm_urdf") if isinstance(robot.get("robot"), dict) else None
-    if not isinstance(urdf_rel, str):
-        raise ConfigError(f"{robot_path.name}: [robot] arm_urdf is missing")
-    urdf_path = referenced_path(robot_path, urdf_rel)
-    urdf_text = read_text(urdf_path, where=f"{robot_path.name}: [robot] arm_urdf",
-                          what="URDF file")
+    urdf_path, urdf_text = robot_urdf(robot_path, robot)   # arm or whole robot (xacro expanded)
     catalogue, cat_name = None, None
     if isinstance(table.get("catalogue"), str):
         cat_path = referenced_path(duty_path, table["catalogue"])
@@ -143,7 +139,14 @@ def load_robot_doc(documents, doc):
     from ..model import load_robot
 
     doc = dict(doc)
-    doc["robot"] = dict(doc.get("robot", {}), arm_urdf=documents.urdf_name)
+    table = dict(doc.get("robot", {}))
+    if "urdf" in table:             # whole robot: its text is at hand, expanded
+        table["urdf"] = documents.urdf_name
+        table.pop("xacro_args", None)
+        doc.pop("package_paths", None)
+    else:
+        table["arm_urdf"] = documents.urdf_name
+    doc["robot"] = table
     return load_robot(Path(documents.names["robot"]), doc=doc, urdf_text=documents.urdf_text)
 
 

@@ -36,7 +36,8 @@ form; R is signed, R > 0 turns left).
 
 from __future__ import annotations
 
-from ._motions import ArmMotion, BaseMotion, BaseSegment, JointMove, arc, joint_move, line, spin
+from ._motions import (ArmMotion, BaseMotion, BaseSegment, DelayedMove, JointMove, arc, joint_move,
+                      line, spin)
 from ._pieces import BASE_PIECE_KINDS, base_piece
 from ._profiles import (MinimumJerkProfile, Phase, PiecewiseProfile, ProfileSample,
                        constant_velocity, dwell, minimum_jerk, s_curve, trapezoidal,
@@ -52,6 +53,7 @@ __all__ = [
     "ArmMotion",
     "BaseMotion",
     "BaseSegment",
+    "DelayedMove",
     "JointMove",
     "MinimumJerkProfile",
     "Phase",

@@ -165,12 +165,45 @@ class JointMove:
                          qdd=np.outer(a * r * r / p.distance, dq))
 
 
-def joint_move(q_start, q_end, duration, *, profile="minimum_jerk") -> JointMove:
+@dataclass(frozen=True, eq=False)
+class DelayedMove(JointMove):
+    """A joint move that waits `delay` s at q_start, then moves: for a move
+    that starts part-way into the piece it shares with a base segment.
+
+    duration : float > delay   s, the whole (wait + move); the move itself
+                               lasts duration − delay
+    delay : float >= 0         s
+    """
+
+    delay: float = 0.0
+
+    def __post_init__(self):
+        super().__post_init__()
+        delay = _real("delay", self.delay)
+        if not (delay >= 0.0 and delay < self.duration):
+            raise ValueError(f"`delay` must be in [0, duration = {self.duration}) s, got {delay}")
+        object.__setattr__(self, "delay", delay)
+
+    def sample(self, t) -> ArmMotion:
+        t = _as_times(t)
+        move = JointMove(self.q_start, self.q_end, self.duration - self.delay, self.shape)
+        out = move.sample(np.maximum(t - self.delay, 0.0))
+        waiting = t < self.delay
+        out.qd[waiting] = 0.0
+        out.qdd[waiting] = 0.0
+        return out
+
+
+def joint_move(q_start, q_end, duration, *, profile="minimum_jerk", delay=0.0) -> JointMove:
     """Interpolate the arm from `q_start` to `q_end` (shape (n,), rad or m) in `duration` s.
 
     `profile` is "minimum_jerk" (default), "trapezoidal" (accelerating for the first
     third of the time, braking for the last), "s_curve" (see `_unit_shape`), or any
     profile object, used as a shape and rescaled to the duration and the distance.
+    `delay` > 0 (s) holds q_start that long first (a `DelayedMove` of duration
+    delay + duration).
     """
     shape = _unit_shape(profile) if isinstance(profile, str) else profile
+    if delay:
+        return DelayedMove(q_start, q_end, delay + duration, shape, delay)
     return JointMove(q_start, q_end, duration, shape)
