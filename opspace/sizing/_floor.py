@@ -137,7 +137,13 @@ def worst_floor(robot, ev):
                 flat = tr if flat is None else flat
                 use[c, sel] = np.where(np.isnan(tr.traction), np.inf, tr.traction)
                 shift = w.com[:, 2:3] * (tr.loads.tilt - flat.loads.tilt)
-                margin[c, sel] = tr.polygon.margin(tr.zmp + shift)[0]
+                z = tr.zmp + shift
+                # no finite ZMP or tilt: the chassis finds no rest on that floor (tips)
+                ok = np.all(np.isfinite(z), axis=1)
+                m = np.full(len(z), -np.inf)
+                if ok.any():
+                    m[ok] = tr.polygon.margin(z[ok])[0]
+                margin[c, sel] = m
     st = ev.stability
     nominal = np.where(np.isnan(st.traction[idx]), np.inf, st.traction[idx])
     c_u, i_u, w_u = np.unravel_index(int(np.argmax(use)), use.shape)
