@@ -163,7 +163,7 @@ def _true_robot(tmp_path):
     d.mkdir()
     (d / "arm.urdf").write_text(DEMO.with_name("arm.urdf").read_text())
     text = DEMO.read_text()
-    for old, new in (("mass = 3.0  ", "mass = 3.6  "), ("coulomb = 0.1  ", "coulomb = 0.26 "), ("stiction = 0.15 ", "stiction = 0.39 "),
+    for old, new in (("mass = 3.0  ", "mass = 3.6  "), ("coulomb = 0.1  ", "coulomb = 0.26 "), ("stiction = 0.3  ", "stiction = 0.39 "),
                      ("[arm_joint.elbow]\n", "[arm_joint.elbow]\ncoulomb = 1.3\nviscous = 0.9\n")):
         assert old in text
         text = text.replace(old, new, 1)
