@@ -439,20 +439,6 @@ def _cmd_limits(args):
     return 0 if study.status == "ok" else 1
 
 
-def _speed_arg(text):
-    v = float(text)
-    if not 0.0 <= v <= 20.0:          # nan fails both comparisons
-        raise argparse.ArgumentTypeError(f"must be a speed within 0..20 m/s, got {text}")
-    return v
-
-
-def _samples_arg(text):
-    n = int(text)
-    if not 10 <= n <= 200_000:
-        raise argparse.ArgumentTypeError(f"must be a whole number within 10..200000, got {text}")
-    return n
-
-
 def _count_arg(lo, hi):
     def parse(text):
         try:
@@ -475,13 +461,6 @@ def _range_arg(lo, hi, unit):
             raise argparse.ArgumentTypeError(f"must be within {lo:g}..{hi:g} {unit}, got {text}")
         return v
     return parse
-
-
-def _cutoff_arg(text):
-    v = float(text)
-    if not 0.01 <= v <= 1000.0:       # nan fails both comparisons
-        raise argparse.ArgumentTypeError(f"must be a frequency within 0.01..1000 Hz, got {text}")
-    return v
 
 
 def build_parser():
@@ -581,12 +560,12 @@ def build_parser():
     p.add_argument("--region", help="body region for every point (default: each point's, or "
                                     "the most restrictive at its height)")
     p.add_argument("--pose", help="a named pose of the description (default: neutral)")
-    p.add_argument("--speed", type=_speed_arg, help="check this speed (m/s) of every point "
+    p.add_argument("--speed", type=_range_arg(0.0, 20.0, "m/s"), help="check this speed (m/s) of every point "
                                                    "along its direction; exit 1 if exceeded")
     p.add_argument("--payload", action="store_true", help="attach the rated payload")
     p.add_argument("--map", action="store_true",
                    help="maps of the permissible speed over the arm's workspace")
-    p.add_argument("--samples", type=_samples_arg, default=1500,
+    p.add_argument("--samples", type=_count_arg(10, 200_000), default=1500,
                    help="arm configurations sampled for a map (default 1500)")
     p.set_defaults(func=_cmd_contact)
     # --------------------------------------------------------- opspace identify
@@ -596,7 +575,7 @@ def build_parser():
     p.add_argument("--robot", required=True, help="robot description TOML")
     p.add_argument("-o", "--output", default="opspace-identify",
                    help="output directory (default: ./opspace-identify)")
-    p.add_argument("--cutoff", type=_cutoff_arg, default=10.0,
+    p.add_argument("--cutoff", type=_range_arg(0.01, 1000.0, "Hz"), default=10.0,
                    help="zero-phase low-pass cut-off for the derivatives, Hz (default 10)")
     p.add_argument("--torque-constant", action="append", metavar="COORDINATE=K",
                    help="motor torque constant (N·m/A) for a current:COORDINATE column")

@@ -262,4 +262,4 @@ def test_bad_contact_inputs_one_line(tmp_path, capsys):
         assert f"regions_{key}.toml: [[region]] 1 'r' {key} {expect}" in err
     assert not (tmp_path / "o").exists()
     assert main(["contact", str(DEMO), "--speed", "nan"]) == 2
-    assert "--speed: must be a speed within 0..20 m/s" in capsys.readouterr().err
+    assert "--speed: must be within 0..20 m/s" in capsys.readouterr().err
