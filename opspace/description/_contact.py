@@ -145,15 +145,22 @@ def load_regions(path=None, *, doc=None):
     if not isinstance(entries, list) or not entries:
         raise ConfigError(f"{path.name}: [[region]] must be a non-empty array of tables, "
                           f"got {entries!r}")
-    regions, seen = [], set()
+    regions = _named_entries(path, "region", entries, _read_region, "region")
+    return RegionTable(regions, title, from_memory, path)
+
+
+def _named_entries(path, kind, entries, read, what):
+    """Each table of an array of tables read by `read(Entry)`; a repeated name
+    is refused naming the entry."""
+    out, seen = [], set()
     for i, table in enumerate(entries):
-        e = Entry(path, "region", i + 1, table)
-        r = _read_region(e)
-        if r.name in seen:
-            e.fail("name", f"repeats the region {r.name!r}")
-        seen.add(r.name)
-        regions.append(r)
-    return RegionTable(tuple(regions), title, from_memory, path)
+        e = Entry(path, kind, i + 1, table)
+        item = read(e)
+        if item.name in seen:
+            e.fail("name", f"repeats the {what} {item.name!r}")
+        seen.add(item.name)
+        out.append(item)
+    return tuple(out)
 
 
 def _read_region(e):
@@ -188,15 +195,7 @@ def read_contact_points(path, entries):
     if not isinstance(entries, list) or not all(isinstance(t, dict) for t in entries):
         raise ConfigError(f"{path.name}: [[contact_point]] must be an array of tables, "
                           f"got {entries!r}")
-    points, seen = [], set()
-    for i, table in enumerate(entries):
-        e = Entry(path, "contact_point", i + 1, table)
-        p = _read_point(e)
-        if p.name in seen:
-            e.fail("name", f"repeats the contact point {p.name!r}")
-        seen.add(p.name)
-        points.append(p)
-    return tuple(points)
+    return _named_entries(path, "contact_point", entries, _read_point, "contact point")
 
 
 def _read_point(e):
